@@ -19,6 +19,8 @@ import {
   PROTOCOL_VERSION,
 } from './limits.js';
 
+export type { AlertMetric, AlertRule, QueuePolicy, QueueSettings, StreamDeclaration } from './declaration.js';
+
 /**
  * Every message of protocol version 1. Requests from producers and subscribers are strict
  * (unknown fields are errors); messages from the daemon are lenient (unknown fields are dropped),
@@ -34,7 +36,7 @@ const anyNumber = z.custom<number>((v) => typeof v === 'number', { message: 'exp
 
 /** Bytes of `unit`-byte elements, at most `maxElements` of them, at least one. */
 function bytes(unit: number, maxElements: number) {
-  return z.instanceof(Uint8Array, { message: 'expected bytes (MessagePack bin)' }).superRefine((b, ctx) => {
+  return z.custom<Uint8Array>((b) => b instanceof Uint8Array, { message: 'expected bytes (MessagePack bin)' }).superRefine((b, ctx) => {
     if (b.byteLength === 0) ctx.addIssue({ code: 'custom', message: 'is empty' });
     else if (b.byteLength % unit !== 0) {
       ctx.addIssue({ code: 'custom', message: `${b.byteLength} bytes is not a multiple of ${unit}` });
