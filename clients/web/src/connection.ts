@@ -1,0 +1,163 @@
+/**
+ * The page's one WebSocket to the daemon's watch endpoint: subscribes on every (re)connect,
+ * hands each decoded message on, and reconnects by itself with growing, jittered delays.
+ */
+import { decode, encode } from '../../../protocol/codec.js';
+import type { DaemonToSubscriber, Message, SubscribeMessage } from '../../../protocol/messages.js';
+
+export type LinkState =
+  | { kind: 'connecting'; attempt: number }
+  | { kind: 'live'; since: number }
+  | { kind: 'waiting'; attempt: number; retryAt: number; reason: string }
+  | { kind: 'stopped' };
+
+/** The part of the WebSocket interface the connection uses (the browser's, or ws's in tests). */
+export interface SocketLike {
+  binaryType: string;
+  readonly readyState: number;
+  onopen: ((ev: unknown) => void) | null;
+  onmessage: ((ev: { data: unknown }) => void) | null;
+  onclose: ((ev: { code: number; reason: string }) => void) | null;
+  onerror: ((ev: unknown) => void) | null;
+  send(data: Uint8Array): void;
+  close(code?: number, reason?: string): void;
+}
+
+export interface BackoffOptions {
+  initialMs: number;
+  maxMs: number;
+}
+
+/**
+ * Delay before reconnect attempt `attempt` (0-based): doubling from `initialMs`, capped at
+ * `maxMs`, then scaled by a random factor in [0.5, 1) so many pages do not return in step
+ * (exponential backoff with jitter: common practice, no source).
+ */
+export function reconnectDelay(attempt: number, options: BackoffOptions, random: number): number {
+  const base = Math.min(options.maxMs, options.initialMs * 2 ** Math.min(attempt, 30));
+  return base * (0.5 + 0.5 * random);
+}
+
+export interface WatchLinkOptions {
+  url: string;
+  /** The subscribe message to send after each open. */
+  subscription: () => SubscribeMessage;
+  onMessage: (message: DaemonToSubscriber, receivedAt: number) => void;
+  onState: (state: LinkState) => void;
+  /** A message the page could not decode or did not expect (counted, shown, never fatal). */
+  onBadMessage: (problem: string) => void;
+  backoff?: BackoffOptions;
+  openSocket?: (url: string) => SocketLike;
+  now?: () => number;
+  random?: () => number;
+}
+
+export class WatchLink {
+  private socket: SocketLike | null = null;
+  private attempt = 0;
+  private timer: ReturnType<typeof setTimeout> | null = null;
+  private stopped = false;
+  private readonly backoff: BackoffOptions;
+  private readonly openSocket: (url: string) => SocketLike;
+  private readonly now: () => number;
+  private readonly random: () => number;
+
+  constructor(private readonly options: WatchLinkOptions) {
+    this.backoff = options.backoff ?? { initialMs: 500, maxMs: 15_000 };
+    this.openSocket = options.openSocket ?? ((url) => new WebSocket(url) as unknown as SocketLike);
+    this.now = options.now ?? (() => Date.now());
+    this.random = options.random ?? Math.random;
+  }
+
+  start(): void {
+    this.stopped = false;
+    this.connect();
+  }
+
+  stop(): void {
+    this.stopped = true;
+    if (this.timer) clearTimeout(this.timer);
+    this.timer = null;
+    const socket = this.socket;
+    this.socket = null;
+    socket?.close(1000, 'page closed');
+    this.options.onState({ kind: 'stopped' });
+  }
+
+  /** Drops the current socket and reconnects now (used by the "retry now" control). */
+  retryNow(): void {
+    if (this.stopped) return;
+    if (this.timer) clearTimeout(this.timer);
+    this.timer = null;
+    if (!this.socket) this.connect();
+  }
+
+  private connect(): void {
+    this.timer = null;
+    this.options.onState({ kind: 'connecting', attempt: this.attempt });
+    let socket: SocketLike;
+    try {
+      socket = this.openSocket(this.options.url);
+    } catch (err) {
+      this.scheduleRetry(`cannot open: ${(err as Error).message}`);
+      return;
+    }
+    this.socket = socket;
+    socket.binaryType = 'arraybuffer';
+    socket.onopen = () => {
+      if (this.socket !== socket) return;
+      socket.send(encode(this.options.subscription()));
+    };
+    socket.onmessage = (ev) => {
+      if (this.socket !== socket) return;
+      const message = this.decodeMessage(ev.data);
+      if (!message) return;
+      // The link counts as healthy once the daemon has accepted the subscription, not merely
+      // on open: a daemon that refuses us (bad token) must not be hammered without delay.
+      if (message.type === 'subscribed') {
+        this.attempt = 0;
+        this.options.onState({ kind: 'live', since: this.now() });
+      }
+      this.options.onMessage(message, this.now());
+    };
+    socket.onerror = () => {
+      // A close event always follows; the retry is scheduled there.
+    };
+    socket.onclose = (ev) => {
+      if (this.socket !== socket) return;
+      this.socket = null;
+      if (!this.stopped) this.scheduleRetry(ev.reason || `closed (code ${ev.code})`);
+    };
+  }
+
+  private scheduleRetry(reason: string): void {
+    const delay = reconnectDelay(this.attempt, this.backoff, this.random());
+    const attempt = this.attempt;
+    this.attempt++;
+    this.options.onState({ kind: 'waiting', attempt, retryAt: this.now() + delay, reason });
+    this.timer = setTimeout(() => this.connect(), delay);
+  }
+
+  private decodeMessage(data: unknown): DaemonToSubscriber | null {
+    if (!(data instanceof ArrayBuffer)) {
+      this.options.onBadMessage('a text frame (the protocol uses binary MessagePack only)');
+      return null;
+    }
+    let message: Message;
+    try {
+      message = decode(new Uint8Array(data));
+    } catch (err) {
+      this.options.onBadMessage((err as Error).message);
+      return null;
+    }
+    if (!SUBSCRIBER_TYPES.has(message.type)) {
+      this.options.onBadMessage(`unexpected message type ${message.type}`);
+      return null;
+    }
+    return message as DaemonToSubscriber;
+  }
+}
+
+const SUBSCRIBER_TYPES: ReadonlySet<string> = new Set<DaemonToSubscriber['type']>([
+  'subscribed', 'unsubscribed', 'result', 'alert', 'missed', 'stream_event', 'error',
+]);

@@ -1,0 +1,170 @@
+/**
+ * The live recovery of the chosen stream, drawn for its kind:
+ * - spectrum: magnitude of the recovered coefficients over frequency bins, and beside it the
+ *   reconstructed waveform;
+ * - delay-Doppler: the heat map (heat-map.ts), strongest cell ringed;
+ * - signal: the reconstructed signal over time, and beside it the basis coefficients.
+ * Charts are rebuilt when the chosen stream (or its declaration) changes, and fed the latest
+ * result otherwise.
+ */
+import uPlot from 'uplot';
+import { binToFloat64, sparseFromWire, type SparseVector } from '../../../../protocol/bin.js';
+import type { ResultMessage } from '../../../../protocol/messages.js';
+import { fillMagnitudes, splitComplex } from '../magnitudes.js';
+import type { RecoveryShape } from '../stream-kind.js';
+import { axisStyle, cssColor, mountChart } from './charts.js';
+import { HeatMapView } from './heat-map.js';
+
+export interface RecoveryElements {
+  caption: HTMLElement;
+  plot: HTMLElement;
+  heat: HTMLCanvasElement;
+  readout: HTMLElement;
+  side: HTMLElement;
+  sideCaption: HTMLElement;
+  sidePlot: HTMLElement;
+}
+
+const MAIN_HEIGHT = 300;
+const SIDE_HEIGHT = 300;
+
+/** Magnitudes by index (stems), for spectra and basis coefficients. */
+class MagnitudeChart {
+  readonly chart: uPlot;
+  private readonly x: Float64Array;
+  private readonly y: Float64Array;
+
+  constructor(host: HTMLElement, size: number, height: number, xLabel: string, colour: string) {
+    this.x = Float64Array.from({ length: size }, (_, i) => i);
+    this.y = new Float64Array(size);
+    this.chart = mountChart(
+      host,
+      {
+        height,
+        scales: { x: { time: false }, y: { range: (_u, _min, max) => [0, max > 0 ? max * 1.08 : 1] } },
+        axes: [axisStyle(xLabel), { ...axisStyle('|c|'), size: 56 }],
+        series: [
+          { label: xLabel },
+          { label: '|c|', stroke: colour, fill: colour, width: 1, paths: uPlot.paths.bars!({ size: [0.7, 6] }), points: { show: false } },
+        ],
+        legend: { show: false },
+        cursor: { show: false },
+      },
+      [this.x, this.y],
+    );
+  }
+
+  draw(coefficients: SparseVector): void {
+    fillMagnitudes(coefficients.indices, coefficients.values, this.y);
+    this.chart.setData([this.x, this.y]);
+  }
+}
+
+/** A complex signal over sample index: real part, and imaginary part when there is one. */
+class SignalChart {
+  readonly chart: uPlot;
+  private readonly x: Float64Array;
+  private readonly re: Float64Array;
+  private readonly im: Float64Array;
+  private samples: Float64Array;
+
+  constructor(host: HTMLElement, size: number, height: number) {
+    this.x = Float64Array.from({ length: size }, (_, i) => i);
+    this.re = new Float64Array(size);
+    this.im = new Float64Array(size);
+    this.samples = new Float64Array(2 * size);
+    this.chart = mountChart(
+      host,
+      {
+        height,
+        scales: { x: { time: false } },
+        axes: [axisStyle('sample'), { ...axisStyle(), size: 56 }],
+        series: [
+          { label: 'sample' },
+          { label: 'real part', stroke: cssColor('--sea', '#1f6e6a'), width: 1.5, points: { show: false } },
+          { label: 'imaginary part', stroke: cssColor('--amber', '#b97d0e'), width: 1, points: { show: false } },
+        ],
+        legend: { show: true, live: false },
+        cursor: { show: false },
+      },
+      [this.x, this.re, this.im],
+    );
+  }
+
+  draw(signal: Uint8Array): boolean {
+    if (signal.byteLength !== this.samples.byteLength) return false;
+    binToFloat64(signal, 'signal', this.samples);
+    splitComplex(this.samples, this.re, this.im);
+    let imaginary = false;
+    for (let i = 0; i < this.im.length && !imaginary; i++) imaginary = Math.abs(this.im[i]!) > 1e-12 * (1 + Math.abs(this.re[i]!));
+    if (this.chart.series[2]!.show !== imaginary) this.chart.setSeries(2, { show: imaginary });
+    this.chart.setData([this.x, this.re, this.im]);
+    return true;
+  }
+}
+
+export class RecoveryView {
+  private shape: RecoveryShape | null = null;
+  private main: MagnitudeChart | SignalChart | null = null;
+  private side: MagnitudeChart | SignalChart | null = null;
+  private readonly heat: HeatMapView;
+
+  constructor(private readonly el: RecoveryElements) {
+    this.heat = new HeatMapView(el.heat);
+  }
+
+  /** Sets up the panels for a stream's shape (call when the chosen stream or its declaration changes). */
+  show(shape: RecoveryShape): void {
+    this.main?.chart.destroy();
+    this.side?.chart.destroy();
+    this.main = null;
+    this.side = null;
+    this.shape = shape;
+    const el = this.el;
+    el.heat.hidden = shape.kind !== 'delay_doppler';
+    el.plot.hidden = shape.kind === 'delay_doppler';
+    el.side.hidden = shape.kind === 'delay_doppler' || shape.kind === 'coefficients';
+    el.readout.textContent = 'waiting for the first result…';
+    const sea = cssColor('--sea', '#1f6e6a');
+    const indigo = cssColor('--indigo', '#3d4f8e');
+    switch (shape.kind) {
+      case 'spectrum':
+        el.caption.textContent = 'Recovered spectrum: magnitude by frequency bin';
+        el.sideCaption.textContent = 'Reconstructed waveform';
+        this.main = new MagnitudeChart(el.plot, shape.bins, MAIN_HEIGHT, 'frequency bin', sea);
+        this.side = new SignalChart(el.sidePlot, shape.bins, SIDE_HEIGHT);
+        break;
+      case 'delay_doppler':
+        el.caption.textContent = 'Delay × Doppler map of recovered coefficients';
+        this.heat.setGrid(shape.grid);
+        break;
+      case 'signal':
+        el.caption.textContent = 'Reconstructed signal over time';
+        el.sideCaption.textContent = `${shape.basis || 'Basis'} coefficients`;
+        this.main = new SignalChart(el.plot, shape.samples, MAIN_HEIGHT);
+        this.side = new MagnitudeChart(el.sidePlot, shape.samples, SIDE_HEIGHT, 'coefficient', indigo);
+        break;
+      case 'coefficients':
+        el.caption.textContent = 'Recovered coefficients';
+        break;
+    }
+  }
+
+  draw(result: ResultMessage): void {
+    const shape = this.shape;
+    if (!shape) return;
+    const coefficients = result.coefficients ? sparseFromWire(result.coefficients) : null;
+    let readout = `frame ${result.seq} · support ${result.evidence.support_size}`;
+    if (shape.kind === 'delay_doppler') {
+      if (coefficients) readout = `frame ${result.seq} · ${this.heat.draw({ seq: result.seq, ...coefficients })}`;
+    } else {
+      for (const chart of [this.main, this.side]) {
+        if (chart instanceof MagnitudeChart && coefficients) chart.draw(coefficients);
+        if (chart instanceof SignalChart && result.signal && !chart.draw(result.signal)) {
+          readout += ' · signal length does not match the declaration';
+        }
+      }
+    }
+    this.el.readout.textContent = readout;
+  }
+}
