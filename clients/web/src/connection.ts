@@ -4,6 +4,7 @@
  */
 import { decode, encode } from '../../../protocol/codec.js';
 import type { DaemonToSubscriber, Message, SubscribeMessage } from '../../../protocol/messages.js';
+import { Backoff, type BackoffSettings } from '../../backoff.js';
 
 export type LinkState =
   | { kind: 'connecting'; attempt: number }
@@ -23,20 +24,11 @@ export interface SocketLike {
   close(code?: number, reason?: string): void;
 }
 
-export interface BackoffOptions {
-  initialMs: number;
-  maxMs: number;
-}
-
 /**
- * Delay before reconnect attempt `attempt` (0-based): doubling from `initialMs`, capped at
- * `maxMs`, then scaled by a random factor in [0.5, 1) so many pages do not return in step
- * (exponential backoff with jitter: common practice, no source).
+ * A page waits longer between attempts than a producer would: many pages may be open on one
+ * daemon, and a person is reading, not a sensor waiting to send.
  */
-export function reconnectDelay(attempt: number, options: BackoffOptions, random: number): number {
-  const base = Math.min(options.maxMs, options.initialMs * 2 ** Math.min(attempt, 30));
-  return base * (0.5 + 0.5 * random);
-}
+export const PAGE_BACKOFF: BackoffSettings = { initialMs: 500, maxMs: 15_000, factor: 2, jitter: 0.25 };
 
 export interface WatchLinkOptions {
   url: string;
@@ -46,7 +38,7 @@ export interface WatchLinkOptions {
   onState: (state: LinkState) => void;
   /** A message the page could not decode or did not expect (counted, shown, never fatal). */
   onBadMessage: (problem: string) => void;
-  backoff?: BackoffOptions;
+  backoff?: BackoffSettings;
   openSocket?: (url: string) => SocketLike;
   now?: () => number;
   random?: () => number;
@@ -57,16 +49,14 @@ export class WatchLink {
   private attempt = 0;
   private timer: ReturnType<typeof setTimeout> | null = null;
   private stopped = false;
-  private readonly backoff: BackoffOptions;
+  private readonly backoff: Backoff;
   private readonly openSocket: (url: string) => SocketLike;
   private readonly now: () => number;
-  private readonly random: () => number;
 
   constructor(private readonly options: WatchLinkOptions) {
-    this.backoff = options.backoff ?? { initialMs: 500, maxMs: 15_000 };
+    this.backoff = new Backoff(options.backoff ?? PAGE_BACKOFF, options.random);
     this.openSocket = options.openSocket ?? ((url) => new WebSocket(url) as unknown as SocketLike);
     this.now = options.now ?? (() => Date.now());
-    this.random = options.random ?? Math.random;
   }
 
   start(): void {
@@ -116,6 +106,7 @@ export class WatchLink {
       // on open: a daemon that refuses us (bad token) must not be hammered without delay.
       if (message.type === 'subscribed') {
         this.attempt = 0;
+        this.backoff.reset();
         this.options.onState({ kind: 'live', since: this.now() });
       }
       this.options.onMessage(message, this.now());
@@ -131,7 +122,7 @@ export class WatchLink {
   }
 
   private scheduleRetry(reason: string): void {
-    const delay = reconnectDelay(this.attempt, this.backoff, this.random());
+    const delay = this.backoff.next();
     const attempt = this.attempt;
     this.attempt++;
     this.options.onState({ kind: 'waiting', attempt, retryAt: this.now() + delay, reason });

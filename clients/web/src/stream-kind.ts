@@ -1,25 +1,106 @@
 /**
- * What a stream's recovery looks like, read from its declared operator: a spectrum (coefficients
- * over frequency), a delay-Doppler grid (Gabor), or a signal over time (a sparsity basis).
- * PROVISIONAL until operators/ documents its descriptions.
+ * What a stream's recovery looks like, read from its declared operator description
+ * (docs/operators.md): a spectrum when the unknowns are DFT coefficients, a delay-Doppler grid
+ * for a Gabor operator, and otherwise a signal over time (synthesised from its basis). The
+ * declaration reaches the page unchecked beyond the protocol envelope (the daemon validated it
+ * with the operator parser), so this reads it defensively and falls back to plain coefficients.
  */
 import type { StreamDeclaration } from '../../../protocol/messages.js';
 import type { DelayDopplerGrid } from './delay-doppler.js';
 
 export type RecoveryShape =
-  | { kind: 'spectrum'; bins: number; summary: string }
+  | { kind: 'spectrum'; bins: number; sampleTimes: Uint32Array | null; summary: string }
   | { kind: 'delay_doppler'; grid: DelayDopplerGrid; summary: string }
-  | { kind: 'signal'; samples: number; basis: string; summary: string }
+  | { kind: 'signal'; samples: number; basis: string; sampleTimes: Uint32Array | null; summary: string }
   | { kind: 'coefficients'; summary: string };
 
+const BASIS_NAMES: Readonly<Record<string, string>> = {
+  identity: 'identity',
+  dft: 'DFT',
+  dct2: 'DCT-II',
+  haar: 'Haar',
+  db4: 'Daubechies-4',
+};
+
+type Description = Record<string, unknown>;
+
+function record(v: unknown): Description | null {
+  return v !== null && typeof v === 'object' && !Array.isArray(v) ? (v as Description) : null;
+}
+
+function positiveInt(v: unknown): number | null {
+  return typeof v === 'number' && Number.isInteger(v) && v > 0 ? v : null;
+}
+
+function integer(v: unknown): number | null {
+  return typeof v === 'number' && Number.isInteger(v) ? v : null;
+}
+
+function describeSamples(samples: Description | null, n: number, what: string): string {
+  if (!samples) return what;
+  if (samples.law === 'explicit' && Array.isArray(samples.indices)) return `${samples.indices.length} of ${n} ${what} (listed)`;
+  const m = positiveInt(samples.m);
+  const law = samples.law === 'variable_density' ? 'variable density' : String(samples.law);
+  return `${m ?? '?'} of ${n} ${what} (${law}, seed ${String(samples.seed)})`;
+}
+
+/** Time positions of a sampling operator's explicit samples (seeded ones are not re-derived here). */
+function explicitSampleTimes(desc: Description, n: number): Uint32Array | null {
+  if (desc.kind !== 'sampling') return null;
+  const samples = record(desc.samples);
+  if (samples?.law !== 'explicit' || !Array.isArray(samples.indices)) return null;
+  const times = samples.indices.filter((i): i is number => Number.isInteger(i) && i >= 0 && i < n);
+  return Uint32Array.from(times).sort();
+}
+
 export function recoveryShape(declaration: StreamDeclaration): RecoveryShape {
-  const op = declaration.operator as Record<string, unknown>;
-  const kind = typeof op.kind === 'string' ? op.kind : '';
-  const n = typeof op.n === 'number' ? op.n : 0;
-  if (kind.includes('gabor')) {
-    return { kind: 'delay_doppler', grid: { delays: n, dopplerFrom: 0, dopplerTo: n - 1 }, summary: kind };
+  const desc = record(declaration.operator) ?? {};
+  const solver = record(declaration.solver);
+  const method = typeof solver?.method === 'string' ? ` · solver ${solver.method}` : '';
+
+  if (desc.kind === 'gabor') {
+    const n = positiveInt(desc.n);
+    if (n === null) return { kind: 'coefficients', summary: `Gabor operator${method}` };
+    const grid = record(desc.grid);
+    const delays = positiveInt(grid?.delays);
+    const from = integer(grid?.dopplerFrom);
+    const to = integer(grid?.dopplerTo);
+    // Without a grid the operator spans the full n × n grid (docs/operators.md).
+    const shape: DelayDopplerGrid =
+      delays !== null && from !== null && to !== null && to >= from
+        ? { delays, dopplerFrom: from, dopplerTo: to }
+        : { delays: n, dopplerFrom: 0, dopplerTo: n - 1 };
+    const window = record(desc.window);
+    return {
+      kind: 'delay_doppler',
+      grid: shape,
+      summary: `Gabor probe of length ${n} (${String(window?.kind ?? '?')} window) · ${shape.delays} delays × Doppler ${shape.dopplerFrom}..${shape.dopplerTo}${method}`,
+    };
   }
-  if (kind.includes('dft') || kind.includes('fourier')) return { kind: 'spectrum', bins: n, summary: kind };
-  if (n > 0) return { kind: 'signal', samples: n, basis: String(op.basis ?? ''), summary: kind };
-  return { kind: 'coefficients', summary: kind };
+
+  let size: number | null = null;
+  let measured = '';
+  switch (desc.kind) {
+    case 'sampling':
+      size = positiveInt(desc.n);
+      measured = describeSamples(record(desc.samples), size ?? 0, 'time samples');
+      break;
+    case 'partial_dft':
+      size = positiveInt(desc.n);
+      measured = describeSamples(record(desc.samples), size ?? 0, 'DFT bins');
+      break;
+    case 'gaussian':
+    case 'bernoulli':
+    case 'matrix':
+      size = positiveInt(desc.cols);
+      measured = `${String(desc.rows)} ${desc.kind === 'matrix' ? 'listed' : String(desc.kind)} projections of ${size ?? '?'} samples`;
+      break;
+  }
+  if (size === null) return { kind: 'coefficients', summary: `operator ${String(desc.kind ?? 'unknown')}${method}` };
+  const basisKind = String(record(desc.basis)?.kind ?? 'identity');
+  const basis = BASIS_NAMES[basisKind] ?? basisKind;
+  const summary = `${measured} · sparse in the ${basis} basis${method}`;
+  const sampleTimes = explicitSampleTimes(desc, size);
+  if (basisKind === 'dft') return { kind: 'spectrum', bins: size, sampleTimes, summary };
+  return { kind: 'signal', samples: size, basis, sampleTimes, summary };
 }

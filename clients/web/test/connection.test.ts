@@ -3,18 +3,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { WebSocket, WebSocketServer } from 'ws';
 import { decode, encode } from '../../../protocol/codec.js';
 import type { DaemonToSubscriber, Message } from '../../../protocol/messages.js';
-import { type LinkState, reconnectDelay, type SocketLike, WatchLink } from '../src/connection.js';
-
-describe('reconnectDelay', () => {
-  it('doubles from the initial delay up to the cap, jittered into [½, 1) of that', () => {
-    const options = { initialMs: 100, maxMs: 1000 };
-    expect(reconnectDelay(0, options, 0)).toBe(50);
-    expect(reconnectDelay(0, options, 0.999)).toBeCloseTo(99.95, 9);
-    expect(reconnectDelay(3, options, 0)).toBe(400);
-    expect(reconnectDelay(4, options, 0)).toBe(500); // 1600 capped at 1000
-    expect(reconnectDelay(1000, options, 0.5)).toBe(750);
-  });
-});
+import { type LinkState, type SocketLike, WatchLink } from '../src/connection.js';
 
 describe('WatchLink against a WebSocket server on loopback', () => {
   const servers: WebSocketServer[] = [];
@@ -68,7 +57,7 @@ describe('WatchLink against a WebSocket server on loopback', () => {
       onMessage: (m) => received.push(m),
       onState: (s) => states.push(s),
       onBadMessage: (p) => bad.push(p),
-      backoff: { initialMs: 20, maxMs: 100 },
+      backoff: { initialMs: 20, maxMs: 100, factor: 2, jitter: 0 },
       openSocket: (url) => new WebSocket(url) as unknown as SocketLike,
     });
     links.push(link);
@@ -105,9 +94,9 @@ describe('WatchLink against a WebSocket server on loopback', () => {
       onMessage: () => {},
       onState: (s) => states.push(s),
       onBadMessage: (p) => bad.push(p),
-      backoff: { initialMs: 10, maxMs: 40 },
+      backoff: { initialMs: 10, maxMs: 40, factor: 2, jitter: 0 },
       openSocket: (url) => new WebSocket(url) as unknown as SocketLike,
-      random: () => 0,
+      now: () => 0, // so each waiting state's retryAt is its delay
     });
     links.push(link);
     link.start();
@@ -117,9 +106,10 @@ describe('WatchLink against a WebSocket server on loopback', () => {
       expect.stringMatching(/MessagePack/),
       'unexpected message type declared',
     ]);
-    // Never subscribed successfully, so every retry waits longer: 5, 10, 20 ms (random = 0).
-    const waits = states.filter((s) => s.kind === 'waiting');
-    expect(waits.slice(0, 3).map((s) => s.kind === 'waiting' && s.attempt)).toEqual([0, 1, 2]);
+    // Never subscribed successfully, so every retry waits longer: 10, 20, 40 ms.
+    const waits = states.filter((s): s is Extract<LinkState, { kind: 'waiting' }> => s.kind === 'waiting');
+    expect(waits.slice(0, 3).map((s) => s.attempt)).toEqual([0, 1, 2]);
+    expect(waits.slice(0, 4).map((s) => s.retryAt)).toEqual([10, 20, 40, 40]);
     expect(waits[0]).toMatchObject({ reason: 'try again later' });
   });
 });

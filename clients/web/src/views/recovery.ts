@@ -60,19 +60,25 @@ class MagnitudeChart {
   }
 }
 
-/** A complex signal over sample index: real part, and imaginary part when there is one. */
+/**
+ * A complex signal over sample index: real part, imaginary part when there is one, and — when
+ * the operator lists its sample times — a dot on the reconstruction at every time measured.
+ */
 class SignalChart {
   readonly chart: uPlot;
   private readonly x: Float64Array;
   private readonly re: Float64Array;
   private readonly im: Float64Array;
-  private samples: Float64Array;
+  private readonly samples: Float64Array;
+  /** The reconstruction at the measured times, null elsewhere (uPlot draws no point there). */
+  private readonly atSamples: (number | null)[];
 
-  constructor(host: HTMLElement, size: number, height: number) {
+  constructor(host: HTMLElement, size: number, height: number, private readonly sampleTimes: Uint32Array | null) {
     this.x = Float64Array.from({ length: size }, (_, i) => i);
     this.re = new Float64Array(size);
     this.im = new Float64Array(size);
     this.samples = new Float64Array(2 * size);
+    this.atSamples = new Array<number | null>(size).fill(null);
     this.chart = mountChart(
       host,
       {
@@ -83,11 +89,19 @@ class SignalChart {
           { label: 'sample' },
           { label: 'real part', stroke: cssColor('--sea', '#1f6e6a'), width: 1.5, points: { show: false } },
           { label: 'imaginary part', stroke: cssColor('--amber', '#b97d0e'), width: 1, points: { show: false } },
+          {
+            label: 'measured times',
+            stroke: cssColor('--ink', '#222'),
+            fill: cssColor('--paper-raised', '#fff'),
+            paths: () => null,
+            points: { show: true, size: 6, width: 1.5 },
+            show: sampleTimes !== null,
+          },
         ],
         legend: { show: true, live: false },
         cursor: { show: false },
       },
-      [this.x, this.re, this.im],
+      [this.x, this.re, this.im, this.atSamples],
     );
   }
 
@@ -98,7 +112,8 @@ class SignalChart {
     let imaginary = false;
     for (let i = 0; i < this.im.length && !imaginary; i++) imaginary = Math.abs(this.im[i]!) > 1e-12 * (1 + Math.abs(this.re[i]!));
     if (this.chart.series[2]!.show !== imaginary) this.chart.setSeries(2, { show: imaginary });
-    this.chart.setData([this.x, this.re, this.im]);
+    if (this.sampleTimes) for (const t of this.sampleTimes) this.atSamples[t] = this.re[t]!;
+    this.chart.setData([this.x, this.re, this.im, this.atSamples]);
     return true;
   }
 }
@@ -123,7 +138,8 @@ export class RecoveryView {
     const el = this.el;
     el.heat.hidden = shape.kind !== 'delay_doppler';
     el.plot.hidden = shape.kind === 'delay_doppler';
-    el.side.hidden = shape.kind === 'delay_doppler' || shape.kind === 'coefficients';
+    // Beside a signal in the identity basis, its coefficients would only repeat it.
+    el.side.hidden = shape.kind === 'delay_doppler' || shape.kind === 'coefficients' || (shape.kind === 'signal' && shape.basis === 'identity');
     el.readout.textContent = 'waiting for the first result…';
     const sea = cssColor('--sea', '#1f6e6a');
     const indigo = cssColor('--indigo', '#3d4f8e');
@@ -132,7 +148,7 @@ export class RecoveryView {
         el.caption.textContent = 'Recovered spectrum: magnitude by frequency bin';
         el.sideCaption.textContent = 'Reconstructed waveform';
         this.main = new MagnitudeChart(el.plot, shape.bins, MAIN_HEIGHT, 'frequency bin', sea);
-        this.side = new SignalChart(el.sidePlot, shape.bins, SIDE_HEIGHT);
+        this.side = new SignalChart(el.sidePlot, shape.bins, SIDE_HEIGHT, shape.sampleTimes);
         break;
       case 'delay_doppler':
         el.caption.textContent = 'Delay × Doppler map of recovered coefficients';
@@ -140,9 +156,9 @@ export class RecoveryView {
         break;
       case 'signal':
         el.caption.textContent = 'Reconstructed signal over time';
-        el.sideCaption.textContent = `${shape.basis || 'Basis'} coefficients`;
-        this.main = new SignalChart(el.plot, shape.samples, MAIN_HEIGHT);
-        this.side = new MagnitudeChart(el.sidePlot, shape.samples, SIDE_HEIGHT, 'coefficient', indigo);
+        el.sideCaption.textContent = `${shape.basis} coefficients`;
+        this.main = new SignalChart(el.plot, shape.samples, MAIN_HEIGHT, shape.sampleTimes);
+        if (shape.basis !== 'identity') this.side = new MagnitudeChart(el.sidePlot, shape.samples, SIDE_HEIGHT, 'coefficient', indigo);
         break;
       case 'coefficients':
         el.caption.textContent = 'Recovered coefficients';
