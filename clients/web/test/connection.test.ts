@@ -100,7 +100,7 @@ describe('WatchLink against a WebSocket server on loopback', () => {
     });
     links.push(link);
     link.start();
-    await until(() => (states.filter((s) => s.kind === 'waiting').length >= 3 ? true : undefined), 'three retries');
+    await until(() => (states.filter((s) => s.kind === 'waiting').length >= 4 ? true : undefined), 'four retries');
     expect(bad.slice(0, 3)).toEqual([
       'a text frame (the protocol uses binary MessagePack only)',
       expect.stringMatching(/MessagePack/),
