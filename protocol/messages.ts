@@ -186,7 +186,7 @@ export const errorSchema = z.object({
 
 // ---------------------------------------------------------------- subscriber → daemon
 
-export const WANTS = ['coefficients', 'top_k', 'signal', 'quality', 'alerts'] as const;
+export const WANTS = ['coefficients', 'top_k', 'signal', 'measurements', 'quality', 'alerts'] as const;
 export type Want = (typeof WANTS)[number];
 
 export const BEHIND_POLICIES = ['keep_latest', 'drop_with_notice', 'disconnect'] as const;
@@ -272,6 +272,10 @@ export const resultSchema = z.object({
   top_k: wireSparseSchema.optional(),
   /** The recovered signal (basis synthesis of the coefficients), Float64 LE interleaved complex. */
   signal: complexBin(MAX_UNKNOWNS).optional(),
+  /** With want 'measurements': the frame's y exactly as the producer sent it (for recorders). */
+  y: complexBin(MAX_MEASUREMENTS).optional(),
+  /** With want 'measurements': the frame's own noise level, when it had one. */
+  sigma: nonNegativeNumber.optional(),
 });
 
 export const alertSchema = z.object({
