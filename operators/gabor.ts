@@ -8,9 +8,13 @@
  * The full grid is K = n, dopplerFrom = 0, dopplerTo = n − 1 (n² columns).
  *
  * Matrix-free through FFTs, K transforms of length n per call, never a dense n × K·L matrix:
- *   apply:   (A c)[t] = Σ_k g[t − k] · h_k[t],  h_k[t] = Σ_l c[k, l] e^{+2πi l t/n}
- *            (h_k is an unnormalised inverse DFT: FFT of c[k, ·] scattered to bins (−l) mod n)
+ *   apply:   (A c)[t] = Σ_k g[t − k] · h_k[t],  h_k[t] = Σ_l c[k, l] e^{+2πi l t/n} = H_k[(−t) mod n]
+ *            with H_k the forward FFT of c[k, ·] placed at bins l mod n
  *   adjoint: (Aᴴ y)[k, l] = Σ_t e^{−2πi l t/n} conj(g[t − k]) y[t] = FFT(conj(g[· − k]) ⊙ y)[l mod n]
+ * When the Doppler range covers all n bins (L = n, e.g. the full grid), the bins are a
+ * rotation of 0..n−1 by dopplerFrom: the FFTs then read c[k, ·] and write (Aᴴ y)[k, ·] in
+ * place, and the rotation becomes one modulation pass by e^{±2πi·dopplerFrom·t/n}.
+ * Otherwise c[k, ·] is scattered into a buffer that is zero off the grid's bins.
  *
  * Norm: on the full grid A Aᴴ = n‖g‖²·I (the columns form a tight frame), so ‖A‖ = √n·‖g‖.
  * A sub-grid keeps a subset of the columns, so ‖A_sub‖ ≤ √n·‖g‖; two more bounds can be
@@ -18,6 +22,7 @@
  * max|g|·√n, so ‖A_sub‖² ≤ K·n·max|g|²; and ‖A_sub‖² ≤ ‖A_sub‖_F² = K·L·‖g‖².
  */
 import { fftPlan, type FftPlan } from './fft.js';
+import { BlockViews } from './block-views.js';
 import type { LinearOperator } from './types.js';
 
 export interface DelayDopplerGrid {
@@ -41,14 +46,21 @@ export class GaborOperator implements LinearOperator {
   /** L: Doppler bins per delay. */
   readonly dopplerBins: number;
   private readonly plan: FftPlan;
-  /** Bin (l mod n) of Doppler offset i = l − dopplerFrom, and its negation (−l) mod n. */
+  /** L = n: transform blocks of the caller's vectors in place. */
+  private readonly inPlace: boolean;
+  private readonly blocks: BlockViews;
+  /** e^{2πi·dopplerFrom·t/n} when the in-place path must rotate the bins, else null. */
+  private readonly modulation: Float64Array | null;
+  /** Bin l mod n of Doppler offset i = l − dopplerFrom. */
   private readonly bins: Int32Array;
-  private readonly negatedBins: Int32Array;
-  /** Apply's FFT input: zero outside the grid's bins for the operator's lifetime. */
+  /** Scatter path: FFT input, zero outside the grid's bins for the operator's lifetime. */
   private readonly scattered: Float64Array;
-  /** Adjoint's FFT input. */
-  private readonly product: Float64Array;
+  /** FFT output (apply), or the spectrum gathered from (adjoint, scatter path). */
   private readonly transformed: Float64Array;
+  /** Adjoint's FFT input conj(g[· − k]) ⊙ y. */
+  private readonly product: Float64Array;
+  /** y modulated by e^{−2πi·dopplerFrom·t/n} (adjoint, in-place path with rotation). */
+  private readonly demodulated: Float64Array;
 
   /** `window` is interleaved complex of length 2n, used as given (normalise it beforehand). */
   constructor(
@@ -66,16 +78,21 @@ export class GaborOperator implements LinearOperator {
     this.dopplerBins = L;
     this.cols = grid.delays * L;
     this.plan = fftPlan(n);
-    this.bins = new Int32Array(L);
-    this.negatedBins = new Int32Array(L);
-    for (let i = 0; i < L; i++) {
-      const bin = (((grid.dopplerFrom + i) % n) + n) % n;
-      this.bins[i] = bin;
-      this.negatedBins[i] = (n - bin) % n;
+    this.inPlace = L === n;
+    this.blocks = new BlockViews(2 * n, grid.delays);
+    const shift = ((grid.dopplerFrom % n) + n) % n;
+    this.modulation = this.inPlace && shift !== 0 ? new Float64Array(2 * n) : null;
+    for (let t = 0; t < n && this.modulation; t++) {
+      const angle = (2 * Math.PI * ((shift * t) % n)) / n;
+      this.modulation[2 * t] = Math.cos(angle);
+      this.modulation[2 * t + 1] = Math.sin(angle);
     }
+    this.bins = new Int32Array(L);
+    for (let i = 0; i < L; i++) this.bins[i] = (shift + i) % n;
     this.scattered = new Float64Array(2 * n);
-    this.product = new Float64Array(2 * n);
     this.transformed = new Float64Array(2 * n);
+    this.product = new Float64Array(2 * n);
+    this.demodulated = new Float64Array(2 * n);
 
     let energy = 0;
     let peak = 0;
@@ -90,30 +107,43 @@ export class GaborOperator implements LinearOperator {
   apply(c: Float64Array, out: Float64Array): void {
     const n = this.size;
     const L = this.dopplerBins;
-    const { negatedBins, scattered: z, transformed: h, window: g } = this;
+    const { bins, scattered: z, transformed: spectrum, window: g } = this;
+    const views = this.inPlace ? this.blocks.of(c) : null;
     out.fill(0, 0, 2 * n);
     for (let k = 0; k < this.grid.delays; k++) {
-      const base = 2 * k * L;
-      for (let i = 0; i < L; i++) {
-        const b = 2 * negatedBins[i]!;
-        z[b] = c[base + 2 * i]!;
-        z[b + 1] = c[base + 2 * i + 1]!;
+      if (views !== null) {
+        this.plan.forward(views[k]!, spectrum);
+      } else {
+        const base = 2 * k * L;
+        for (let i = 0; i < L; i++) {
+          const b = 2 * bins[i]!;
+          z[b] = c[base + 2 * i]!;
+          z[b + 1] = c[base + 2 * i + 1]!;
+        }
+        this.plan.forward(z, spectrum);
       }
-      this.plan.forward(z, h);
-      // out[t] += g[(t − k) mod n] · h[t], split at t = k to avoid a modulo per sample.
-      accumulateProduct(g, 2 * (n - k), h, out, 0, k);
-      accumulateProduct(g, -2 * k, h, out, k, n);
+      accumulateShiftedProduct(g, k, spectrum, out, n);
     }
+    if (this.modulation !== null) multiplyInPlace(out, this.modulation, n, 1);
   }
 
   adjoint(y: Float64Array, out: Float64Array): void {
     const n = this.size;
     const L = this.dopplerBins;
     const { bins, product: z, transformed: spectrum, window: g } = this;
+    const views = this.inPlace ? this.blocks.of(out) : null;
+    let input = y;
+    if (this.modulation !== null) {
+      input = this.demodulated;
+      for (let i = 0; i < 2 * n; i++) input[i] = y[i]!;
+      multiplyInPlace(input, this.modulation, n, -1);
+    }
     for (let k = 0; k < this.grid.delays; k++) {
-      // z[t] = conj(g[(t − k) mod n]) · y[t]
-      conjugateProduct(g, 2 * (n - k), y, z, 0, k);
-      conjugateProduct(g, -2 * k, y, z, k, n);
+      conjugateShiftedProduct(g, k, input, z, n);
+      if (views !== null) {
+        this.plan.forward(z, views[k]!);
+        continue;
+      }
       this.plan.forward(z, spectrum);
       const base = 2 * k * L;
       for (let i = 0; i < L; i++) {
@@ -125,40 +155,48 @@ export class GaborOperator implements LinearOperator {
   }
 }
 
-/** out[t] += g[gOffset/2 + t] · h[t] for t in [from, to) (interleaved complex). */
-function accumulateProduct(
-  g: Float64Array,
-  gOffset: number,
-  h: Float64Array,
-  out: Float64Array,
-  from: number,
-  to: number,
-): void {
-  for (let i = 2 * from; i < 2 * to; i += 2) {
-    const gr = g[gOffset + i]!;
-    const gi = g[gOffset + i + 1]!;
-    const hr = h[i]!;
-    const hi = h[i + 1]!;
-    out[i] += gr * hr - gi * hi;
-    out[i + 1] += gr * hi + gi * hr;
+/** out[t] += g[(t − k) mod n] · H[(−t) mod n], t = 0..n−1 (interleaved complex). */
+function accumulateShiftedProduct(g: Float64Array, k: number, H: Float64Array, out: Float64Array, n: number): void {
+  const n2 = 2 * n;
+  let gi = k === 0 ? 0 : 2 * (n - k);
+  let hi = 0;
+  for (let i = 0; i < n2; i += 2) {
+    const gr = g[gi]!;
+    const gm = g[gi + 1]!;
+    const hr = H[hi]!;
+    const hm = H[hi + 1]!;
+    out[i] += gr * hr - gm * hm;
+    out[i + 1] += gr * hm + gm * hr;
+    gi += 2;
+    if (gi === n2) gi = 0;
+    hi = n2 - i - 2;
   }
 }
 
-/** z[t] = conj(g[gOffset/2 + t]) · y[t] for t in [from, to) (interleaved complex). */
-function conjugateProduct(
-  g: Float64Array,
-  gOffset: number,
-  y: Float64Array,
-  z: Float64Array,
-  from: number,
-  to: number,
-): void {
-  for (let i = 2 * from; i < 2 * to; i += 2) {
-    const gr = g[gOffset + i]!;
-    const gi = g[gOffset + i + 1]!;
+/** z[t] = conj(g[(t − k) mod n]) · y[t], t = 0..n−1 (interleaved complex). */
+function conjugateShiftedProduct(g: Float64Array, k: number, y: Float64Array, z: Float64Array, n: number): void {
+  const n2 = 2 * n;
+  let gi = k === 0 ? 0 : 2 * (n - k);
+  for (let i = 0; i < n2; i += 2) {
+    const gr = g[gi]!;
+    const gm = g[gi + 1]!;
     const yr = y[i]!;
-    const yi = y[i + 1]!;
-    z[i] = gr * yr + gi * yi;
-    z[i + 1] = gr * yi - gi * yr;
+    const ym = y[i + 1]!;
+    z[i] = gr * yr + gm * ym;
+    z[i + 1] = gr * ym - gm * yr;
+    gi += 2;
+    if (gi === n2) gi = 0;
+  }
+}
+
+/** v[t] ← v[t] · w[t] (sign 1) or v[t] · conj(w[t]) (sign −1), t = 0..n−1. */
+function multiplyInPlace(v: Float64Array, w: Float64Array, n: number, sign: 1 | -1): void {
+  for (let i = 0; i < 2 * n; i += 2) {
+    const vr = v[i]!;
+    const vm = v[i + 1]!;
+    const wr = w[i]!;
+    const wm = sign * w[i + 1]!;
+    v[i] = vr * wr - vm * wm;
+    v[i + 1] = vr * wm + vm * wr;
   }
 }
