@@ -1,10 +1,12 @@
 /**
- * Builds the dashboard into clients/web/dist/: the page's TypeScript bundled with its
- * dependencies (uPlot, msgpackr's browser build, the protocol codec) into one ES module, plus
- * the HTML and style sheets. Run by `npm run build:web`, and by `npm install` through `prepare`.
+ * Builds the dashboard's script: the page's TypeScript bundled with its dependencies (uPlot,
+ * msgpackr's browser build, the protocol codec) into one ES module, clients/web/dist/app.js,
+ * next to a copy of uPlot's style sheet. The daemon serves clients/web/ as it is, so
+ * index.html and style.css stay where they are and load dist/. Run by `npm run build:web`, and
+ * by `npm install` / `npm ci` through the `prepare` script.
  */
 import { build, type Plugin } from 'esbuild';
-import { copyFile, mkdir, rm } from 'node:fs/promises';
+import { copyFile, mkdir, mkdtemp, readdir, rename, rm } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -12,11 +14,7 @@ import { fileURLToPath } from 'node:url';
 export const WEB_DIR = dirname(fileURLToPath(import.meta.url));
 export const DIST_DIR = join(WEB_DIR, 'dist');
 
-export interface BuildReport {
-  outDir: string;
-  /** Bytes of the bundled script. */
-  scriptBytes: number;
-}
+const require = createRequire(import.meta.url);
 
 /**
  * zod (which the protocol's schemas use) re-exports every message language it ships; the page
@@ -36,31 +34,40 @@ const englishOnlyZodMessages: Plugin = {
   },
 };
 
-const require = createRequire(import.meta.url);
+export interface BuildReport {
+  outDir: string;
+  /** Bytes of the bundled script. */
+  scriptBytes: number;
+}
 
-export async function buildDashboard(outDir = DIST_DIR): Promise<BuildReport> {
-  await rm(outDir, { recursive: true, force: true });
-  await mkdir(outDir, { recursive: true });
-  const result = await build({
-    entryPoints: [join(WEB_DIR, 'src', 'main.ts')],
-    outfile: join(outDir, 'app.js'),
-    bundle: true,
-    format: 'esm',
-    platform: 'browser',
-    target: ['chrome110', 'firefox115', 'safari16'],
-    minify: true,
-    sourcemap: 'linked',
-    metafile: true,
-    logLevel: 'warning',
-    plugins: [englishOnlyZodMessages],
-  });
-  await Promise.all([
-    copyFile(join(WEB_DIR, 'index.html'), join(outDir, 'index.html')),
-    copyFile(join(WEB_DIR, 'style.css'), join(outDir, 'style.css')),
-    copyFile(require.resolve('uplot/dist/uPlot.min.css'), join(outDir, 'uPlot.min.css')),
-  ]);
-  const script = result.metafile.outputs[Object.keys(result.metafile.outputs).find((p) => p.endsWith('app.js'))!]!;
-  return { outDir, scriptBytes: script.bytes };
+/**
+ * Builds into a scratch folder beside dist/ and then renames each file into place, so a daemon
+ * serving the page (or a second build running at the same time) never sees a half-written file.
+ */
+export async function buildDashboard(): Promise<BuildReport> {
+  await mkdir(DIST_DIR, { recursive: true });
+  const scratch = await mkdtemp(join(WEB_DIR, '.build-'));
+  try {
+    const result = await build({
+      entryPoints: [join(WEB_DIR, 'src', 'main.ts')],
+      outfile: join(scratch, 'app.js'),
+      bundle: true,
+      format: 'esm',
+      platform: 'browser',
+      target: ['chrome110', 'firefox115', 'safari16'],
+      minify: true,
+      sourcemap: 'linked',
+      metafile: true,
+      logLevel: 'warning',
+      plugins: [englishOnlyZodMessages],
+    });
+    await copyFile(require.resolve('uplot/dist/uPlot.min.css'), join(scratch, 'uPlot.min.css'));
+    for (const file of await readdir(scratch)) await rename(join(scratch, file), join(DIST_DIR, file));
+    const script = Object.entries(result.metafile.outputs).find(([p]) => p.endsWith('app.js'))![1];
+    return { outDir: DIST_DIR, scriptBytes: script.bytes };
+  } finally {
+    await rm(scratch, { recursive: true, force: true });
+  }
 }
 
 if (process.argv[1] && fileURLToPath(import.meta.url) === process.argv[1]) {

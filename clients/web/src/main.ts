@@ -13,8 +13,11 @@ import { RecoveryView } from './views/recovery.js';
 import { RosterView } from './views/roster.js';
 import { TrendsView } from './views/trends.js';
 
-/** What the page asks for: everything needed to draw, for every stream it may see. */
-const WANTS: SubscribeMessage['want'] = ['coefficients', 'signal', 'quality', 'alerts'];
+/**
+ * What the page asks for: everything needed to draw, for every stream it may see (the
+ * measurements, to draw measured samples over reconstructed waveforms).
+ */
+const WANTS: SubscribeMessage['want'] = ['coefficients', 'signal', 'measurements', 'quality', 'alerts'];
 /** The roster's figures change every frame; redrawing them a few times a second is plenty. */
 const ROSTER_EVERY_MS = 250;
 
@@ -29,6 +32,11 @@ let badMessages = 0;
 let lastBadMessage = '';
 let messages = 0;
 let subscriptions = 0;
+// What the stage last drew, so a frame with nothing new draws nothing.
+let stageStream: StreamState | null = null;
+let stageShape: StreamState['shape'] | null = null;
+let stageVersion = -1;
+let rosterAt = 0;
 
 const watch = new WatchLink({
   url: watchUrl,
@@ -79,17 +87,13 @@ function chosenFromHash(): string | null {
 function choose(name: string): void {
   if (name === chosen) return;
   chosen = name;
+  rosterAt = 0; // show the new choice in the roster on the next frame
   history.replaceState(null, '', `${location.pathname}${location.search}#stream=${encodeURIComponent(name)}`);
 }
 window.addEventListener('hashchange', () => {
   chosen = chosenFromHash();
+  rosterAt = 0;
 });
-
-// What the stage last drew, so a frame with nothing new draws nothing.
-let stageStream: StreamState | null = null;
-let stageShape: StreamState['shape'] | null = null;
-let stageVersion = -1;
-let rosterAt = 0;
 
 function frame(): void {
   const now = Date.now();

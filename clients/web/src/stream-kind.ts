@@ -5,10 +5,13 @@
  * declaration reaches the page unchecked beyond the protocol envelope (the daemon validated it
  * with the operator parser), so this reads it defensively and falls back to plain coefficients.
  */
+import { sampleIndices } from '../../../operators/build.js';
+import { parseOperatorDescription } from '../../../operators/description.js';
 import type { StreamDeclaration } from '../../../protocol/messages.js';
 import type { DelayDopplerGrid } from './delay-doppler.js';
 
 export type RecoveryShape =
+  /** sampleTimes: when the measurements are time samples, the time of each, in measurement order. */
   | { kind: 'spectrum'; bins: number; sampleTimes: Uint32Array | null; summary: string }
   | { kind: 'delay_doppler'; grid: DelayDopplerGrid; summary: string }
   | { kind: 'signal'; samples: number; basis: string; sampleTimes: Uint32Array | null; summary: string }
@@ -44,13 +47,19 @@ function describeSamples(samples: Description | null, n: number, what: string): 
   return `${m ?? '?'} of ${n} ${what} (${law}, seed ${String(samples.seed)})`;
 }
 
-/** Time positions of a sampling operator's explicit samples (seeded ones are not re-derived here). */
-function explicitSampleTimes(desc: Description, n: number): Uint32Array | null {
-  if (desc.kind !== 'sampling') return null;
-  const samples = record(desc.samples);
-  if (samples?.law !== 'explicit' || !Array.isArray(samples.indices)) return null;
-  const times = samples.indices.filter((i): i is number => Number.isInteger(i) && i >= 0 && i < n);
-  return Uint32Array.from(times).sort();
+/**
+ * Time index of each measurement of a `sampling` operator, in measurement order (y_i was taken
+ * at time sampleTimes[i]). Seeded sample sets are re-derived with the operators' own code, the
+ * same derivation the daemon builds the operator with (docs/operators.md).
+ */
+function sampleTimesOf(raw: Description): Uint32Array | null {
+  if (raw.kind !== 'sampling') return null;
+  try {
+    const desc = parseOperatorDescription(raw);
+    return desc.kind === 'sampling' ? Uint32Array.from(sampleIndices(desc.samples, desc.n)) : null;
+  } catch {
+    return null; // the daemon accepted it, so this page is older or newer than the daemon: draw without
+  }
 }
 
 export function recoveryShape(declaration: StreamDeclaration): RecoveryShape {
@@ -100,7 +109,7 @@ export function recoveryShape(declaration: StreamDeclaration): RecoveryShape {
   const basisKind = String(record(desc.basis)?.kind ?? 'identity');
   const basis = BASIS_NAMES[basisKind] ?? basisKind;
   const summary = `${measured} · sparse in the ${basis} basis${method}`;
-  const sampleTimes = explicitSampleTimes(desc, size);
+  const sampleTimes = sampleTimesOf(desc);
   if (basisKind === 'dft') return { kind: 'spectrum', bins: size, sampleTimes, summary };
   return { kind: 'signal', samples: size, basis, sampleTimes, summary };
 }

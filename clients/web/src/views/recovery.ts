@@ -62,7 +62,8 @@ class MagnitudeChart {
 
 /**
  * A complex signal over sample index: real part, imaginary part when there is one, and — when
- * the operator lists its sample times — a dot on the reconstruction at every time measured.
+ * the measurements are time samples — the measured samples as dots (real part), so a reader
+ * sees how well the reconstruction passes through what was actually measured.
  */
 class SignalChart {
   readonly chart: uPlot;
@@ -70,15 +71,17 @@ class SignalChart {
   private readonly re: Float64Array;
   private readonly im: Float64Array;
   private readonly samples: Float64Array;
-  /** The reconstruction at the measured times, null elsewhere (uPlot draws no point there). */
-  private readonly atSamples: (number | null)[];
+  /** Measured values at their times, null elsewhere (uPlot draws no point there). */
+  private readonly measured: (number | null)[];
+  private readonly y: Float64Array | null;
 
   constructor(host: HTMLElement, size: number, height: number, private readonly sampleTimes: Uint32Array | null) {
     this.x = Float64Array.from({ length: size }, (_, i) => i);
     this.re = new Float64Array(size);
     this.im = new Float64Array(size);
     this.samples = new Float64Array(2 * size);
-    this.atSamples = new Array<number | null>(size).fill(null);
+    this.measured = new Array<number | null>(size).fill(null);
+    this.y = sampleTimes ? new Float64Array(2 * sampleTimes.length) : null;
     this.chart = mountChart(
       host,
       {
@@ -90,7 +93,7 @@ class SignalChart {
           { label: 'real part', stroke: cssColor('--sea', '#1f6e6a'), width: 1.5, points: { show: false } },
           { label: 'imaginary part', stroke: cssColor('--amber', '#b97d0e'), width: 1, points: { show: false } },
           {
-            label: 'measured times',
+            label: 'measured samples',
             stroke: cssColor('--ink', '#222'),
             fill: cssColor('--paper-raised', '#fff'),
             paths: () => null,
@@ -101,20 +104,30 @@ class SignalChart {
         legend: { show: true, live: false },
         cursor: { show: false },
       },
-      [this.x, this.re, this.im, this.atSamples],
+      [this.x, this.re, this.im, this.measured],
     );
   }
 
-  draw(signal: Uint8Array): boolean {
-    if (signal.byteLength !== this.samples.byteLength) return false;
+  /**
+   * Returns how many measured samples were drawn, or -1 when the signal or measurements do not
+   * fit the declared sizes (nothing drawn then).
+   */
+  draw(signal: Uint8Array, y: Uint8Array | undefined): number {
+    if (signal.byteLength !== this.samples.byteLength) return -1;
+    if (y && this.y && y.byteLength !== this.y.byteLength) return -1;
     binToFloat64(signal, 'signal', this.samples);
     splitComplex(this.samples, this.re, this.im);
     let imaginary = false;
     for (let i = 0; i < this.im.length && !imaginary; i++) imaginary = Math.abs(this.im[i]!) > 1e-12 * (1 + Math.abs(this.re[i]!));
     if (this.chart.series[2]!.show !== imaginary) this.chart.setSeries(2, { show: imaginary });
-    if (this.sampleTimes) for (const t of this.sampleTimes) this.atSamples[t] = this.re[t]!;
-    this.chart.setData([this.x, this.re, this.im, this.atSamples]);
-    return true;
+    let drawn = 0;
+    if (this.sampleTimes && this.y && y) {
+      binToFloat64(y, 'y', this.y);
+      this.sampleTimes.forEach((t, i) => (this.measured[t] = this.y![2 * i]!));
+      drawn = this.sampleTimes.length;
+    }
+    this.chart.setData([this.x, this.re, this.im, this.measured]);
+    return drawn;
   }
 }
 
@@ -176,8 +189,10 @@ export class RecoveryView {
     } else {
       for (const chart of [this.main, this.side]) {
         if (chart instanceof MagnitudeChart && coefficients) chart.draw(coefficients);
-        if (chart instanceof SignalChart && result.signal && !chart.draw(result.signal)) {
-          readout += ' · signal length does not match the declaration';
+        if (chart instanceof SignalChart && result.signal) {
+          const drawn = chart.draw(result.signal, result.y);
+          if (drawn < 0) readout += ' · signal or measurements do not match the declared sizes';
+          else if (drawn > 0) readout += ` · ${drawn} measured samples shown as dots`;
         }
       }
     }

@@ -50,7 +50,7 @@ export class TrendsView {
             },
           },
         },
-        axes: [x, { ...axisStyle(), size: 56 }],
+        axes: [x, { ...axisStyle(), size: 56, splits: decades }],
         series: [{}, { label: 'relative residual', stroke: sea, width: 1.5, points: { show: false } }],
         legend: { show: false },
         hooks: {
@@ -141,6 +141,13 @@ export class TrendsView {
     this.iterations.setData([x, this.columns[TREND_ITERATIONS]!.subarray(0, n)]);
     this.support.setData([x, this.columns[TREND_SUPPORT]!.subarray(0, n)]);
   }
+}
+
+/** Grid lines at whole decades only (uPlot's log axis would also draw 2×…9× each decade). */
+function decades(_u: uPlot, _axis: number, min: number, max: number): number[] {
+  const out: number[] = [];
+  for (let e = Math.ceil(Math.log10(min) - 1e-9); 10 ** e <= max * (1 + 1e-9); e++) out.push(10 ** e);
+  return out;
 }
 
 /** The first rule on the relative residual, whose limits the residual chart draws. */
