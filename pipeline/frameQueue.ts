@@ -44,6 +44,11 @@ export class FrameQueue<T> {
     }
   }
 
+  /** The oldest waiting item, left in place. */
+  peek(): T | undefined {
+    return this.head < this.items.length ? this.items[this.head] : undefined;
+  }
+
   shift(): T | undefined {
     if (this.head >= this.items.length) return undefined;
     const item = this.items[this.head];

@@ -78,6 +78,9 @@ interface QueuedFrame {
   seq: number;
   time: number;
   y: Float64Array;
+  /** The frame's own noise level, if it sent one... */
+  ownSigma: number | undefined;
+  /** ...else the declared one. */
   sigma: number | undefined;
   /** Sequence numbers missing right before this frame. */
   gap: number;
@@ -174,6 +177,7 @@ export class Pipeline {
       seq: s.seq,
       time: s.time,
       y: check.y,
+      ownSigma: s.sigma,
       sigma: s.sigma ?? entry.declaration.noise_sigma,
       gap: order.kind === 'gap' ? order.missing : 0,
       receivedAt: s.receivedAt,
@@ -241,6 +245,18 @@ export class Pipeline {
     };
   }
 
+  /**
+   * The highest sequence number such that every accepted frame up to it has finished (solved or
+   * dropped); undefined when there is none.
+   */
+  doneThrough(stream: string): number | undefined {
+    const e = this.streams.get(stream);
+    const next = e?.order.nextSeq;
+    if (e === undefined || next === undefined) return undefined;
+    const through = (e.inFlight?.seq ?? e.queue.peek()?.seq ?? next) - 1;
+    return through >= 0 ? through : undefined;
+  }
+
   streamNames(): string[] {
     return [...this.streams.keys()];
   }
@@ -292,6 +308,8 @@ export class Pipeline {
         indices: out.indices,
         values: out.values,
         ...(out.signal ? { signal: out.signal } : {}),
+        y: out.y,
+        ...(frame.ownSigma !== undefined ? { sigma: frame.ownSigma } : {}),
         latencySeconds: (performance.now() - frame.receivedAt) / 1000,
       };
       entry.counts.solved++;

@@ -29,9 +29,9 @@ export interface AlertRule {
 export interface StreamDeclaration {
   name: string;
   /** The operator description, as sent (validated by operators/). */
-  operator: unknown;
+  operator: object;
   /** The solver settings, as sent (validated by solvers/). */
-  solver: unknown;
+  solver: object;
   alerts: AlertRule[];
   queue: QueueSettings;
   /** Noise level of the measurements when frames do not carry their own. */
@@ -112,6 +112,8 @@ export interface SolveOutput {
   values: Float64Array;
   /** Reconstructed signal (basis synthesis of the estimate), when asked for. */
   signal?: Float64Array;
+  /** The frame's measurements, handed back unchanged (they were transferred to the solver). */
+  y: Float64Array;
 }
 
 /** A solved frame with its quality flags, ready for fan-out. */
@@ -126,6 +128,10 @@ export interface PublishedResult {
   indices: Uint32Array;
   values: Float64Array;
   signal?: Float64Array;
+  /** The frame's measurements as received. */
+  y: Float64Array;
+  /** The frame's own noise level, when it carried one. */
+  sigma?: number;
   /** Seconds from receipt to publication. */
   latencySeconds: number;
 }

@@ -54,6 +54,7 @@ function solved(task: SolveTask): SolveOutput {
     hitIterationCap: false,
     indices: new Uint32Array([0]),
     values: new Float64Array([task.y[0]!, 0]),
+    y: task.y,
   };
 }
 

@@ -14,6 +14,7 @@ function output(over: Partial<SolveOutput['evidence']> = {}, extra: Partial<Solv
     hitIterationCap: false,
     indices: new Uint32Array(0),
     values: new Float64Array(0),
+    y: new Float64Array(0),
     ...extra,
   };
 }

@@ -1,0 +1,93 @@
+import type { Logger } from 'pino';
+import type { RawData, WebSocket } from 'ws';
+import { ProtocolError, decode, encode, type ErrorCode, type Message } from '../protocol/index.js';
+import type { Principal } from './access.js';
+import type { DaemonCore } from './core.js';
+
+/** A request that cannot be served; the connection answers with an `error` message. */
+export class RequestError extends Error {
+  constructor(
+    readonly code: ErrorCode,
+    message: string,
+    readonly field?: string,
+  ) {
+    super(message);
+    this.name = 'RequestError';
+  }
+}
+
+export interface ErrorDetails {
+  ref?: string;
+  stream?: string;
+  field?: string;
+}
+
+/**
+ * What producer and subscriber connections share: decoding one message per WebSocket message
+ * (binary only), answering anything wrong with an `error` that names the problem while the
+ * connection carries on, and logging faults of our own without crashing.
+ */
+export abstract class Connection {
+  protected readonly log: Logger;
+
+  constructor(
+    readonly ws: WebSocket,
+    readonly principal: Principal,
+    protected readonly core: DaemonCore,
+    endpoint: 'produce' | 'watch',
+    readonly connectionId: number,
+  ) {
+    this.log = core.log.child({ connection: connectionId, endpoint, principal: principal.id });
+    ws.on('message', (data, isBinary) => this.receive(data, isBinary));
+  }
+
+  /** Sends a message from the daemon. */
+  protected abstract deliver(bytes: Uint8Array): void;
+
+  protected abstract handle(msg: Message): void | Promise<void>;
+
+  /** A message failed to decode; subclasses may recover more from it (see ProducerSession). */
+  protected rejected(err: ProtocolError, _data: Uint8Array): void {
+    this.sendError(err.code, err.message, { ...(err.ref ? { ref: err.ref } : {}), ...(err.field ? { field: err.field } : {}) });
+  }
+
+  send(msg: Message): void {
+    this.deliver(encode(msg));
+  }
+
+  sendError(code: ErrorCode, detail: string, details: ErrorDetails = {}): void {
+    this.core.metrics.messagesRejected.inc({ code });
+    this.send({ v: 1, type: 'error', code, detail, ...details });
+  }
+
+  private receive(data: RawData, isBinary: boolean): void {
+    if (!isBinary) {
+      this.sendError('malformed', 'messages must be binary MessagePack; text frames are not accepted');
+      return;
+    }
+    const bytes = data as Buffer;
+    let msg: Message;
+    try {
+      msg = decode(bytes);
+    } catch (err) {
+      if (err instanceof ProtocolError) return this.rejected(err, bytes);
+      throw err;
+    }
+    const ref = 'ref' in msg ? msg.ref : undefined;
+    const stream = 'stream' in msg && typeof msg.stream === 'string' ? msg.stream : undefined;
+    const fail = (err: unknown) => {
+      if (err instanceof RequestError) {
+        this.sendError(err.code, err.message, { ...(ref ? { ref } : {}), ...(stream ? { stream } : {}), ...(err.field ? { field: err.field } : {}) });
+      } else {
+        this.log.error({ err, type: msg.type }, 'failed to handle a message');
+        this.sendError('internal', 'the daemon failed to handle this message (logged)', ref ? { ref } : {});
+      }
+    };
+    try {
+      const done = this.handle(msg);
+      if (done instanceof Promise) done.catch(fail);
+    } catch (err) {
+      fail(err);
+    }
+  }
+}
