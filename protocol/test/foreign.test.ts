@@ -67,7 +67,7 @@ const declare = {
   stream: {
     name: 'example.tones',
     operator: { kind: 'sampling', n: 256, samples: { law: 'explicit', indices }, basis: { kind: 'dft' } },
-    solver: { method: 'fista' },
+    solver: { method: 'lasso' },
     noise_sigma: 0.01,
     alerts: [{ metric: 'relative_residual', above: 0.2, clear_below: 0.1, k: 3, of: 5 }],
   },
