@@ -4,6 +4,7 @@
  */
 import type { SubscribeMessage } from '../../../protocol/messages.js';
 import { type LinkState, WatchLink } from './connection.js';
+import { pollDaemonStreams } from './daemon-view.js';
 import { byId, renderFlags, setText } from './dom.js';
 import { flagLabel, flagSeverity } from './flags.js';
 import { DashboardStore, type StreamState } from './store.js';
@@ -20,10 +21,13 @@ import { TrendsView } from './views/trends.js';
 const WANTS: SubscribeMessage['want'] = ['coefficients', 'signal', 'measurements', 'quality', 'alerts'];
 /** The roster's figures change every frame; redrawing them a few times a second is plenty. */
 const ROSTER_EVERY_MS = 250;
+/** How often the daemon's own stream figures (drops, queue) are fetched. */
+const DAEMON_VIEW_EVERY_MS = 2000;
 
 const params = new URLSearchParams(location.search);
 const token = params.get('token');
-const watchUrl = `${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/v1/watch${token ? `?token=${encodeURIComponent(token)}` : ''}`;
+const tokenQuery = token ? `?token=${encodeURIComponent(token)}` : '';
+const watchUrl = `${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/v1/watch${tokenQuery}`;
 
 const store = new DashboardStore();
 let link: LinkState = { kind: 'connecting', attempt: 0 };
@@ -137,4 +141,5 @@ function drawStage(stream: StreamState): void {
 }
 
 watch.start();
+pollDaemonStreams(`/v1/streams${tokenQuery}`, DAEMON_VIEW_EVERY_MS, (view) => store.applyDaemonView(view));
 requestAnimationFrame(frame);

@@ -11,6 +11,7 @@ import type {
   ResultMessage,
   StreamDeclaration,
 } from '../../../protocol/messages.js';
+import type { DaemonStreamView } from './daemon-view.js';
 import { flagSeverity } from './flags.js';
 import { RateMeter, SequenceFollower } from './health.js';
 import { TrendRing } from './ring.js';
@@ -49,6 +50,8 @@ export interface StreamState {
   /** Open alerts by rule index. */
   openAlerts: Map<number, AlertMessage>;
   readonly trends: TrendRing;
+  /** The daemon's figures for the stream (GET /v1/streams), when polled. */
+  daemon: DaemonStreamView | null;
   /** Bumped on every change; views compare it with the version they last drew. */
   version: number;
 }
@@ -108,6 +111,14 @@ export class DashboardStore {
     }
   }
 
+  /** Takes the daemon's figures per stream (streams the page does not know yet are skipped). */
+  applyDaemonView(view: ReadonlyMap<string, DaemonStreamView>): void {
+    for (const [name, figures] of view) {
+      const stream = this.streams.get(name);
+      if (stream) stream.daemon = figures;
+    }
+  }
+
   /** True when any stream showed a sign of this page falling behind in the last moments. */
   behind(now: number): boolean {
     for (const stream of this.streams.values()) if (isBehind(stream, now)) return true;
@@ -138,6 +149,7 @@ export class DashboardStore {
       lastBehindAt: Number.NEGATIVE_INFINITY,
       openAlerts: new Map(),
       trends: new TrendRing(TREND_CAPACITY, 3),
+      daemon: null,
       version: 0,
     });
   }

@@ -134,7 +134,23 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
     // Served the way the daemon serves it: the clients/web folder, with the fresh bundle in dist/.
     await buildDashboard();
     server = createServer((req, res) => {
-      const path = new URL(req.url ?? '/', 'http://x').pathname;
+      const url = new URL(req.url ?? '/', 'http://x');
+      const path = url.pathname;
+      if (path === '/v1/streams') {
+        // The daemon's figures (docs/daemon.md): the channel's producer ignored credit twice and
+        // the queue dropped a frame; the telemetry producer went away.
+        if (url.searchParams.get('token') !== TOKEN) return void res.writeHead(401).end();
+        res.writeHead(200, { 'content-type': 'application/json' });
+        return void res.end(
+          JSON.stringify({
+            streams: [
+              { name: tones.name, state: 'open', producer_connected: true, queue_depth: 0, frames: { received: 9, refused: 0, dropped: 0, solved: 9 } },
+              { name: channel.name, state: 'open', producer_connected: true, queue_depth: 2, frames: { received: 9, refused: 2, dropped: 1, solved: 6 } },
+              { name: telemetry.name, state: 'open', producer_connected: false, queue_depth: 0, frames: { received: 9, refused: 0, dropped: 0, solved: 9 } },
+            ],
+          }),
+        );
+      }
       const file = normalize(join(WEB_DIR, path === '/' ? 'index.html' : path));
       if (!file.startsWith(WEB_DIR + sep)) return void res.writeHead(403).end();
       const stream = createReadStream(file);
@@ -200,6 +216,13 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
     const before = await countOf();
     await page.waitForFunction((n) => Number(document.querySelector('#roster li[data-stream="range-2.channel"]')?.getAttribute('data-results')) > n + 5, before);
     expect(subscribeRequests[0]).toMatchObject({ when_behind: 'keep_latest', streams: '*' });
+    // The daemon's own figures reach the roster.
+    await page.waitForFunction(() => document.querySelector('#roster li[data-stream="link-7.telemetry"] .roster-note')?.textContent === 'no producer connected');
+    const channelFigures = await page.$$eval('#roster li[data-stream="range-2.channel"] dl div', (divs) =>
+      Object.fromEntries(divs.map((d) => [d.querySelector('dt')!.textContent, d.querySelector('dd')!.textContent])),
+    );
+    expect(channelFigures).toMatchObject({ drops: '3', alerts: '0', missed: '0' });
+    expect(channelFigures.rate).toMatch(/^\d+\.\d\/s$/);
 
     // The heat map's strongest cell is the reflector of the very frame the map says it shows.
     for (let check = 0; check < 5; check++) {

@@ -118,3 +118,23 @@ describe('DashboardStore', () => {
     expect([...store.streams.keys()]).toEqual([declaration.name, 'other']);
   });
 });
+
+describe('the daemon view of streams', () => {
+  it('reads drops, queue depth and producer presence, skipping entries it cannot read', async () => {
+    const { parseStreamsBody } = await import('../src/daemon-view.js');
+    const view = parseStreamsBody({
+      streams: [
+        { name: 'a', producer_connected: true, queue_depth: 4, frames: { received: 10, refused: 1, dropped: 2, solved: 7 } },
+        { name: 'b' },
+        { nameless: true },
+        null,
+      ],
+    });
+    expect([...view.entries()]).toEqual([
+      ['a', { drops: 3, queueDepth: 4, producerConnected: true }],
+      ['b', { drops: 0, queueDepth: 0, producerConnected: false }],
+    ]);
+    expect(parseStreamsBody({ error: 'unauthorized' }).size).toBe(0);
+    expect(parseStreamsBody(null).size).toBe(0);
+  });
+});

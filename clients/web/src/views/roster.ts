@@ -14,7 +14,9 @@ interface Card {
   rate: HTMLElement;
   lag: HTMLElement;
   alerts: HTMLElement;
+  drops: HTMLElement;
   missed: HTMLElement;
+  note: HTMLElement;
   flags: HTMLElement;
 }
 
@@ -52,15 +54,17 @@ export class RosterView {
     const rate = figure('rate', 'results per second received');
     const lag = figure('lag', 'acquisition to solved, latest frame');
     const alerts = figure('alerts', 'alerts open now');
-    const missed = figure('missed', 'results this page will never see (dropped or passed over)');
+    const drops = figure('drops', 'frames the daemon dropped or refused (queue policy, no credit, bad frames)');
+    const missed = figure('missed', 'results this page never received (passed over while it was behind, or never solved)');
+    const note = element('p', 'roster-note quiet');
     const flags = element('ul', 'flag-row');
-    li.append(head, figures, flags);
+    li.append(head, figures, note, flags);
     li.addEventListener('click', () => this.onChoose(name));
     li.addEventListener('keydown', (ev) => {
       if (ev.key === 'Enter' || ev.key === ' ') this.onChoose(name);
     });
     this.list.append(li);
-    const card = { li, kind, rate, lag, alerts, missed, flags };
+    const card = { li, kind, rate, lag, alerts, drops, missed, note, flags };
     this.cards.set(name, card);
     return card;
   }
@@ -76,9 +80,18 @@ export class RosterView {
     setText(card.lag, latest ? formatMs(latest.solved_at - latest.time) : '–');
     setText(card.alerts, String(stream.openAlerts.size));
     card.alerts.classList.toggle('hot', stream.openAlerts.size > 0);
+    const drops = stream.daemon?.drops;
+    setText(card.drops, drops === undefined ? '–' : String(drops));
+    card.drops.classList.toggle('hot', (drops ?? 0) > 0);
     const missed = missedTotal(stream);
     setText(card.missed, String(missed));
     card.missed.classList.toggle('hot', missed > 0);
+    let note = '';
+    if (!stream.open) note = 'closed by its producer';
+    else if (stream.daemon && !stream.daemon.producerConnected) note = 'no producer connected';
+    else if (stream.daemon && stream.daemon.queueDepth > 0) note = `${stream.daemon.queueDepth} frames queued`;
+    setText(card.note, note);
+    card.note.hidden = note === '';
     renderFlags(card.flags, latest?.flags ?? [], flagSeverity, flagLabel);
   }
 }
