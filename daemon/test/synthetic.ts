@@ -61,9 +61,9 @@ function fromDescription(description: object, support: number[], amplitude: (j: 
   };
 }
 
-/** Subsampled DFT: 64 of the 256 rows of the unitary DFT, a 4-sparse complex signal (slowly rotating phases). */
-export function dftStream(): SyntheticStream {
-  return fromDescription({ kind: 'partial_dft', n: 256, samples: { law: 'uniform', m: 64, seed: 11 } }, [7, 60, 130, 201], (j, t) => {
+/** Subsampled DFT: m of the n rows of the unitary DFT, an s-sparse complex signal (slowly rotating phases). */
+export function dftStream(n = 256, m = 64, support = [7, 60, 130, 201]): SyntheticStream {
+  return fromDescription({ kind: 'partial_dft', n, samples: { law: 'uniform', m, seed: 11 } }, support, (j, t) => {
     const a = 1 + 0.25 * j;
     const phase = 0.3 * j + 0.05 * t;
     return [a * Math.cos(phase), a * Math.sin(phase)];
