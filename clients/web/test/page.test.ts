@@ -209,16 +209,16 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
 
     // The roster lists every declared stream, and results keep arriving.
     await page.waitForSelector('body[data-link="live"]', { timeout: 15_000 });
-    await page.waitForFunction(() => document.querySelectorAll('#roster li').length === 3);
-    const names = await page.$$eval('#roster li', (lis) => lis.map((li) => li.dataset.stream));
+    await page.waitForFunction(() => document.querySelectorAll('#roster > li').length === 3);
+    const names = await page.$$eval('#roster > li', (lis) => lis.map((li) => li.dataset.stream));
     expect(names).toEqual([tones.name, channel.name, telemetry.name]);
-    const countOf = () => page.$eval(`#roster li[data-stream="${channel.name}"]`, (li) => Number(li.dataset.results));
+    const countOf = () => page.$eval(`#roster > li[data-stream="${channel.name}"]`, (li) => Number(li.dataset.results));
     const before = await countOf();
-    await page.waitForFunction((n) => Number(document.querySelector('#roster li[data-stream="range-2.channel"]')?.getAttribute('data-results')) > n + 5, before);
+    await page.waitForFunction((n) => Number(document.querySelector('#roster > li[data-stream="range-2.channel"]')?.getAttribute('data-results')) > n + 5, before);
     expect(subscribeRequests[0]).toMatchObject({ when_behind: 'keep_latest', streams: '*' });
     // The daemon's own figures reach the roster.
-    await page.waitForFunction(() => document.querySelector('#roster li[data-stream="link-7.telemetry"] .roster-note')?.textContent === 'no producer connected');
-    const channelFigures = await page.$$eval('#roster li[data-stream="range-2.channel"] dl div', (divs) =>
+    await page.waitForFunction(() => document.querySelector('#roster > li[data-stream="link-7.telemetry"] .roster-note')?.textContent === 'no producer connected');
+    const channelFigures = await page.$$eval('#roster > li[data-stream="range-2.channel"] dl div', (divs) =>
       Object.fromEntries(divs.map((d) => [d.querySelector('dt')!.textContent, d.querySelector('dd')!.textContent])),
     );
     expect(channelFigures).toMatchObject({ drops: '3', alerts: '0', missed: '0' });
@@ -257,10 +257,10 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
     broadcast(tonesResult(raisedAt, ['residual_high']));
     broadcast({ v: 1, type: 'alert', stream: tones.name, seq: raisedAt, rule: 0, metric: 'relative_residual', state: 'raised', value: 0.31, limit: 0.2 });
     await page.waitForSelector(`#ledger li[data-state="raised"][data-seq="${raisedAt}"][data-stream="${tones.name}"]`);
-    await page.waitForSelector(`#roster li[data-stream="${tones.name}"][data-health="alerting"]`);
+    await page.waitForSelector(`#roster > li[data-stream="${tones.name}"][data-health="alerting"]`);
 
     // The spectral stream's view: magnitude by frequency bin, and the waveform beside it.
-    await page.click(`#roster li[data-stream="${tones.name}"]`);
+    await page.click(`#roster > li[data-stream="${tones.name}"]`);
     await page.waitForFunction(() => document.getElementById('stage-title')?.textContent === 'stand-1.vibration');
     expect(await page.$eval('#recovery-caption', (e) => e.textContent)).toMatch(/frequency/);
     expect(await page.$eval('#recovery-side', (e) => (e as HTMLElement).hidden)).toBe(false);
