@@ -53,10 +53,10 @@ export class GaborOperator implements LinearOperator {
   private readonly modulation: Float64Array | null;
   /** Bin l mod n of Doppler offset i = l − dopplerFrom. */
   private readonly bins: Int32Array;
-  /** Scatter path: FFT input, zero outside the grid's bins for the operator's lifetime. */
-  private readonly scattered: Float64Array;
-  /** FFT output (apply), or the spectrum gathered from (adjoint, scatter path). */
-  private readonly transformed: Float64Array;
+  /** Scatter path: FFT inputs for two delays, zero outside the grid's bins for the operator's lifetime. */
+  private readonly scattered: [Float64Array, Float64Array];
+  /** FFT outputs of two delays (apply), or the spectrum gathered from (adjoint, scatter path). */
+  private readonly transformed: [Float64Array, Float64Array];
   /** Adjoint's FFT input conj(g[· − k]) ⊙ y. */
   private readonly product: Float64Array;
   /** y modulated by e^{−2πi·dopplerFrom·t/n} (adjoint, in-place path with rotation). */
@@ -89,8 +89,8 @@ export class GaborOperator implements LinearOperator {
     }
     this.bins = new Int32Array(L);
     for (let i = 0; i < L; i++) this.bins[i] = (shift + i) % n;
-    this.scattered = new Float64Array(2 * n);
-    this.transformed = new Float64Array(2 * n);
+    this.scattered = [new Float64Array(2 * n), new Float64Array(2 * n)];
+    this.transformed = [new Float64Array(2 * n), new Float64Array(2 * n)];
     this.product = new Float64Array(2 * n);
     this.demodulated = new Float64Array(2 * n);
 
@@ -106,31 +106,48 @@ export class GaborOperator implements LinearOperator {
 
   apply(c: Float64Array, out: Float64Array): void {
     const n = this.size;
-    const L = this.dopplerBins;
-    const { bins, scattered: z, transformed: spectrum, window: g } = this;
+    const K = this.grid.delays;
+    const [first, second] = this.transformed;
     const views = this.inPlace ? this.blocks.of(c) : null;
     out.fill(0, 0, 2 * n);
-    for (let k = 0; k < this.grid.delays; k++) {
-      if (views !== null) {
-        this.plan.forward(views[k]!, spectrum);
-      } else {
-        const base = 2 * k * L;
-        for (let i = 0; i < L; i++) {
-          const b = 2 * bins[i]!;
-          z[b] = c[base + 2 * i]!;
-          z[b + 1] = c[base + 2 * i + 1]!;
-        }
-        this.plan.forward(z, spectrum);
-      }
-      accumulateShiftedProduct(g, k, spectrum, out, n);
+    // Delays in pairs: one accumulation pass per two transforms halves the passes over out.
+    let k = 0;
+    for (; k + 1 < K; k += 2) {
+      this.transformDelay(c, views, k, 0);
+      this.transformDelay(c, views, k + 1, 1);
+      accumulateShiftedPair(this.window, k, first, second, out, n);
+    }
+    if (k < K) {
+      this.transformDelay(c, views, k, 0);
+      accumulateShiftedProduct(this.window, k, first, out, n);
     }
     if (this.modulation !== null) multiplyInPlace(out, this.modulation, n, 1);
+  }
+
+  /** transformed[slot] ← FFT of c[k, ·] placed at the grid's bins (`views`: blocks of c, in-place path). */
+  private transformDelay(c: Float64Array, views: Float64Array[] | null, k: number, slot: 0 | 1): void {
+    const spectrum = this.transformed[slot];
+    if (views !== null) {
+      this.plan.forward(views[k]!, spectrum);
+      return;
+    }
+    const L = this.dopplerBins;
+    const bins = this.bins;
+    const z = this.scattered[slot];
+    const base = 2 * k * L;
+    for (let i = 0; i < L; i++) {
+      const b = 2 * bins[i]!;
+      z[b] = c[base + 2 * i]!;
+      z[b + 1] = c[base + 2 * i + 1]!;
+    }
+    this.plan.forward(z, spectrum);
   }
 
   adjoint(y: Float64Array, out: Float64Array): void {
     const n = this.size;
     const L = this.dopplerBins;
-    const { bins, product: z, transformed: spectrum, window: g } = this;
+    const { bins, product: z, window: g } = this;
+    const spectrum = this.transformed[0];
     const views = this.inPlace ? this.blocks.of(out) : null;
     let input = y;
     if (this.modulation !== null) {
@@ -169,6 +186,38 @@ function accumulateShiftedProduct(g: Float64Array, k: number, H: Float64Array, o
     out[i + 1] += gr * hm + gm * hr;
     gi += 2;
     if (gi === n2) gi = 0;
+    hi = n2 - i - 2;
+  }
+}
+
+/** out[t] += g[(t − k) mod n] · H[(−t) mod n] + g[(t − k − 1) mod n] · Q[(−t) mod n], t = 0..n−1. */
+function accumulateShiftedPair(
+  g: Float64Array,
+  k: number,
+  H: Float64Array,
+  Q: Float64Array,
+  out: Float64Array,
+  n: number,
+): void {
+  const n2 = 2 * n;
+  let ga = k === 0 ? 0 : 2 * (n - k);
+  let gb = 2 * (n - k - 1);
+  let hi = 0;
+  for (let i = 0; i < n2; i += 2) {
+    const ar = g[ga]!;
+    const am = g[ga + 1]!;
+    const br = g[gb]!;
+    const bm = g[gb + 1]!;
+    const hr = H[hi]!;
+    const hm = H[hi + 1]!;
+    const qr = Q[hi]!;
+    const qm = Q[hi + 1]!;
+    out[i] += ar * hr - am * hm + br * qr - bm * qm;
+    out[i + 1] += ar * hm + am * hr + br * qm + bm * qr;
+    ga += 2;
+    if (ga === n2) ga = 0;
+    gb += 2;
+    if (gb === n2) gb = 0;
     hi = n2 - i - 2;
   }
 }

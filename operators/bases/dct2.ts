@@ -83,10 +83,11 @@ export class Dct2Basis implements UnitaryBasis {
       const sk = sinT[k]!;
       const ckk = cosT[kk]!;
       const skk = sinT[kk]!;
-      U[2 * k] = (ck * ar + ckk * br - (sk * ai - skk * bi)) / 2;
-      U[2 * k + 1] = (sk * ar - skk * br + (ck * ai + ckk * bi)) / 2;
+      // Stored at (−k) mod n so that a forward FFT computes the unnormalised inverse F^H U.
+      U[2 * kk] = (ck * ar + ckk * br - (sk * ai - skk * bi)) / 2;
+      U[2 * kk + 1] = (sk * ar - skk * br + (ck * ai + ckk * bi)) / 2;
     }
-    this.plan.inverse(U, v, 1);
+    this.plan.forward(U, v);
     for (let t = 0; t < n; t++) {
       const m = t % 2 === 0 ? t >> 1 : n - 1 - (t >> 1);
       out[2 * t] = v[2 * m]!;
