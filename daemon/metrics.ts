@@ -43,12 +43,12 @@ abstract class Labelled<T> implements Metric {
   ) {}
 
   protected entry(labels: LabelValues): { labels: LabelValues; value: T } {
+    for (const n in labels) {
+      if (!this.labelNames.includes(n)) throw new Error(`metric ${this.name} has no label "${n}"`);
+    }
     const key = this.labelNames.map((n) => labels[n] ?? '').join('\u0000');
     let e = this.series.get(key);
     if (e === undefined) {
-      for (const n of Object.keys(labels)) {
-        if (!this.labelNames.includes(n)) throw new Error(`metric ${this.name} has no label "${n}"`);
-      }
       e = { labels: { ...labels }, value: this.initial() };
       this.series.set(key, e);
     }
