@@ -6,8 +6,14 @@
  *   npm run bench -- operators [--json] [--rounds N]
  */
 import FFT from 'fft.js';
-import { buildOperator, fftPlan, makeBasis, type LinearOperator, type UnitaryBasis } from '../../operators/index.js';
-import { MT19937 } from '../../operators/mt19937.js';
+import {
+  buildOperator,
+  fftPlan,
+  makeBasis,
+  MT19937,
+  type LinearOperator,
+  type UnitaryBasis,
+} from '../../operators/index.js';
 
 interface Comparison {
   name: string;
