@@ -236,7 +236,9 @@ function checkBasis(basis: Basis | undefined, n: number, sizeField: string): voi
     return;
   }
   if (basis.levels === undefined) {
-    if (n % 2 !== 0) fail('basis.kind', `${basis.kind} needs an even ${sizeField}, got ${n}`);
+    if (n % 2 !== 0) {
+      fail('basis.kind', `${basis.kind} needs an even ${sizeField} (a power of two, or a multiple of 2^levels), got ${n}`);
+    }
     return;
   }
   const maxLevels = twoAdicValuation(n);

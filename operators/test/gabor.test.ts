@@ -100,7 +100,7 @@ describe('Gabor operator', () => {
   it('bounds a sub-grid norm by min(n, K·n·max|g|², K·L)', () => {
     // Steinhaus window: max|g|² = 1/n, so K·n·max|g|² = K (docs/operators.md).
     const sub = buildOperator({ kind: 'gabor', n: 64, window: { kind: 'steinhaus', seed: 1 }, grid: { delays: 3, dopplerFrom: -5, dopplerTo: 5 } });
-    expect(sub.normBound).toBeCloseTo(Math.sqrt(3), 12);
+    expect(sub.normBound).toBeCloseTo(Math.sqrt(3), 10);
   });
 
   it('rejects windows and grids that do not fit when constructed directly', () => {

@@ -56,7 +56,7 @@ describe('operators built from descriptions', () => {
     expect(dft.normBound).toBe(1);
     expect(powerIterationNorm(dft, 20, new MT19937(1))).toBeCloseTo(1, 12);
     const gabor = buildOperator({ kind: 'gabor', n: 16, window: { kind: 'gaussian', seed: 1 } });
-    expect(gabor.normBound).toBeCloseTo(4, 12);
+    expect(gabor.normBound).toBeCloseTo(4, 10);
     expect(powerIterationNorm(gabor, 30, new MT19937(1))).toBeCloseTo(4, 10);
   });
 
