@@ -108,7 +108,8 @@ export class GaborOperator implements LinearOperator {
   apply(c: Float64Array, out: Float64Array): void {
     const n = this.size;
     const K = this.grid.delays;
-    const [first, second] = this.transformed;
+    const first = this.transformed[0];
+    const second = this.transformed[1];
     const views = this.inPlace ? this.blocks.of(c) : null;
     out.fill(0, 0, 2 * n);
     // Delays in pairs: one accumulation pass per two transforms halves the passes over out.

@@ -25,7 +25,7 @@
 import { MT19937 } from './mt19937.js';
 
 /** Multiply-adds allowed for the Gram matrix (≈ a second or two on one core). */
-export const CERTIFY_BUDGET = 2 ** 29;
+const CERTIFY_BUDGET = 2 ** 29;
 const UNIT_ROUNDOFF = 2 ** -53;
 const CHEAP_BOUND_SLACK = 1 + 1e-9;
 const TRIAL_FACTORS = [1.001, 1.01, 1.05, 1.2, 1.5, 2, 4, 16];
