@@ -32,8 +32,11 @@ export type ProducerEvents = {
   /** Each (re)declaration answered by the daemon. */
   declared: [msg: DeclaredMessage];
   ack: [msg: AckMessage];
-  /** A frame the daemon did not take; it is not resent. */
-  refused: [msg: RefusedMessage];
+  /**
+   * A frame the daemon did not take. With `willResend` (the daemon was shutting down) the client
+   * keeps it and sends it again after reconnecting; otherwise it is given up.
+   */
+  refused: [msg: RefusedMessage, willResend: boolean];
   /** An error the daemon reported that no request of ours was waiting for. */
   daemonError: [msg: ErrorMessage];
 };
@@ -44,6 +47,9 @@ interface OutgoingFrame {
   /** Settles the promise of `send`: resolved when first written, rejected if the producer stops first. */
   settle?: { resolve: () => void; reject: (err: Error) => void };
 }
+
+/** Refusals that say "not now" rather than "not this frame": the frame goes out again after a reconnect. */
+const RESENDABLE_REFUSALS = new Set(['shutting_down']);
 
 interface Waiter {
   resolve: () => void;
@@ -176,10 +182,12 @@ export class Producer extends TypedEmitter<ProducerEvents> {
         this.#streams.get(msg.stream)?.acknowledged(msg.through_seq);
         this.emit('ack', msg);
         return;
-      case 'refused':
-        this.#streams.get(msg.stream)?.refused(msg.seq);
-        this.emit('refused', msg);
+      case 'refused': {
+        const willResend = RESENDABLE_REFUSALS.has(msg.reason);
+        if (!willResend) this.#streams.get(msg.stream)?.refused(msg.seq);
+        this.emit('refused', msg, willResend);
         return;
+      }
       case 'error':
         if (msg.ref && this.#requests.reject(msg.ref, msg)) return;
         this.emit('daemonError', msg);

@@ -43,6 +43,10 @@ export interface Result {
   top_k?: SparseVector;
   /** Interleaved complex. */
   signal?: Float64Array;
+  /** The frame's measurements (interleaved complex), with want 'measurements'. */
+  y?: Float64Array;
+  /** The frame's own noise level, with want 'measurements'. */
+  sigma?: number;
   /** The message as received (bins are views into the socket buffer). */
   raw: ResultMessage;
 }
@@ -71,6 +75,8 @@ export function decodeResult(msg: ResultMessage): Result {
     ...(msg.coefficients ? { coefficients: sparseFromWire(msg.coefficients, 'coefficients') } : {}),
     ...(msg.top_k ? { top_k: sparseFromWire(msg.top_k, 'top_k') } : {}),
     ...(msg.signal ? { signal: binToFloat64(msg.signal, 'signal') } : {}),
+    ...(msg.y ? { y: binToFloat64(msg.y, 'y') } : {}),
+    ...(msg.sigma !== undefined ? { sigma: msg.sigma } : {}),
     raw: msg,
   };
 }
@@ -168,7 +174,10 @@ export class Subscriber extends TypedEmitter<SubscriberEvents> {
     const ref = `s${++this.#refCounter}`;
     const reply = this.#requests.expect<SubscribedMessage>(ref, 'subscribed');
     const resumeAfter: Record<string, number> = {};
-    for (const [stream, seq] of this.#lastSeq) if (sub.matches(stream)) resumeAfter[stream] = seq;
+    // Every stream heard of: its last delivered seq, or −1 if none of its results arrived yet.
+    for (const stream of new Set([...this.#declarations.keys(), ...this.#lastSeq.keys()])) {
+      if (sub.matches(stream)) resumeAfter[stream] = this.#lastSeq.get(stream) ?? -1;
+    }
     const { streams, want, topK, whenBehind } = sub.request;
     const msg: Message = {
       v: 1,

@@ -203,12 +203,13 @@ export const subscribeSchema = z.strictObject({
   top_k: z.int().min(1).max(MAX_TOP_K).optional(),
   when_behind: z.enum(BEHIND_POLICIES),
   /**
-   * Resume after a reconnect: per stream, the last seq this subscriber received. The daemon first
-   * sends the retained results after it (and a `missed` notice for any it no longer holds).
+   * Resume after a reconnect: per stream, the last seq this subscriber received, or −1 when it
+   * knows the stream but has received none of its results. The daemon first sends the retained
+   * results after it (and a `missed` notice for any it no longer holds).
    */
   resume_after: z
     .custom<Record<string, number>>(isPlainMap, { message: 'expected a map of stream name to seq' })
-    .pipe(z.record(streamNameSchema, seq))
+    .pipe(z.record(streamNameSchema, z.int().min(-1).max(MAX_SEQ)))
     .optional(),
 });
 
