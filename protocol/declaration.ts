@@ -77,7 +77,7 @@ const declarationShape = {
   solver: opaqueMapSchema,
   alerts: z.array(alertRuleSchema).max(MAX_ALERT_RULES).optional(),
   queue: queueSettingsSchema.optional(),
-  /** Standard deviation of the measurement noise per real component, when the producer knows it. */
+  /** Rms noise per measurement (E|eᵢ|² = σ²; complex noise has σ²/2 in each part), when known. */
   noise_sigma: nonNegativeNumber.optional(),
   note: text.optional(),
 };

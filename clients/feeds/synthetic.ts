@@ -92,9 +92,12 @@ export abstract class SyntheticFeed implements Feed {
     const sigma = this.#burstLeft > 0 ? this.#sigma * this.#burstFactor : this.#sigma;
     if (this.#burstLeft > 0) this.#burstLeft--;
     if (sigma > 0) {
+      // σ is the rms noise per measurement, E|eᵢ|² = σ² (the solvers' convention): complex noise
+      // puts σ²/2 in each part, real noise all of it in the real part.
+      const perPart = this.#complexNoise ? sigma / Math.SQRT2 : sigma;
       for (let i = 0; i < this.#y.length; i += 2) {
-        this.#y[i]! += sigma * this.gaussian();
-        if (this.#complexNoise) this.#y[i + 1]! += sigma * this.gaussian();
+        this.#y[i]! += perPart * this.gaussian();
+        if (this.#complexNoise) this.#y[i + 1]! += perPart * this.gaussian();
       }
     }
     this.#frames++;
