@@ -1,6 +1,6 @@
 /**
  * The delay × Doppler heat map of a Gabor stream's recovered coefficients, drawn on a canvas:
- * one cell per grid column, delay across, Doppler up, the frame's strongest cell ringed.
+ * one cell per grid column, delay across, Doppler up, the frame's strongest cell framed.
  * The strongest cell is also published as data attributes on the canvas
  * (data-peak-delay, data-peak-doppler, data-peak-seq) so tests and tools can read it.
  */
@@ -71,6 +71,7 @@ export class HeatMapView {
       data.peakDelay = String(peak.delay);
       data.peakDoppler = String(peak.doppler);
       data.peakMagnitude = peak.magnitude.toPrecision(4);
+      this.canvas.setAttribute('aria-label', `delay-Doppler map of frame ${frame.seq}; strongest cell at delay ${peak.delay}, Doppler ${peak.doppler}`);
       return `strongest reflector: delay ${peak.delay}, Doppler ${peak.doppler}, |c| ${peak.magnitude.toPrecision(3)} · ${frame.indices.length} nonzero cells`;
     }
     delete data.peakDelay;
@@ -142,13 +143,12 @@ export class HeatMapView {
     ctx.fillText('peak', legendX - 4, PAD + plotH + 4);
 
     if (peak) {
-      const cx = AXIS_LEFT + (peak.delay + 0.5) * cellW;
-      const cy = PAD + (L - 1 - (peak.doppler - grid.dopplerFrom) + 0.5) * cellH;
+      // A frame around the strongest cell, a little outside it so the cell's colour stays visible.
+      const x = AXIS_LEFT + peak.delay * cellW;
+      const y = PAD + (L - 1 - (peak.doppler - grid.dopplerFrom)) * cellH;
       ctx.strokeStyle = ink;
       ctx.lineWidth = 2;
-      ctx.beginPath();
-      ctx.arc(cx, cy, Math.max(6, Math.min(cellW, cellH) * 0.9), 0, 2 * Math.PI);
-      ctx.stroke();
+      ctx.strokeRect(x - 3, y - 3, cellW + 6, cellH + 6);
     }
   }
 }

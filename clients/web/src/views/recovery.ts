@@ -2,7 +2,7 @@
  * The live recovery of the chosen stream, drawn for its kind:
  * - spectrum: magnitude of the recovered coefficients over frequency bins, and beside it the
  *   reconstructed waveform;
- * - delay-Doppler: the heat map (heat-map.ts), strongest cell ringed;
+ * - delay-Doppler: the heat map (heat-map.ts), strongest cell framed;
  * - signal: the reconstructed signal over time, and beside it the basis coefficients.
  * Charts are rebuilt when the chosen stream (or its declaration) changes, and fed the latest
  * result otherwise.
