@@ -13,6 +13,11 @@ export interface WarmState {
   lambda?: number;
   /** Step size / Lipschitz estimate the previous frame ended on. */
   step?: number;
+  /**
+   * Dual iterate the previous frame ended on (interleaved complex, length 2·rows): basis
+   * pursuit and reweighted l1 restart their primal-dual iterations from it.
+   */
+  dual?: Float64Array;
 }
 
 /** A certificate of optimality or fit, with its name so a subscriber can read it. */
@@ -39,6 +44,11 @@ export interface SolveResult {
   supportChange: { added: number; removed: number };
   /** State to pass to the next frame of the same stream. */
   warm: WarmState;
+  /**
+   * Further named figures behind the certificate, e.g. `lambda`, `epsilon`, `primal_residual`
+   * and `dual_residual` for basis pursuit, `refit_iterations` (see docs/solvers.md for each method).
+   */
+  evidence?: Record<string, number>;
 }
 
 export type { LinearOperator };
