@@ -4,3 +4,4 @@ export { Subscriber, decodeResult, type SubscriberOptions, type SubscriptionRequ
 export { AccessRefusedError, endpointUrl, type ConnectionOptions } from './connection.js';
 export { DaemonError, ConnectionLostError } from './requests.js';
 export { DEFAULT_BACKOFF, type BackoffSettings } from './backoff.js';
+export { pause } from './pause.js';

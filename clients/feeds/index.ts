@@ -9,6 +9,8 @@ export { RangeFeed, type RangeOptions, type Reflector } from './range.js';
 export { TelemetryFeed, type TelemetryOptions } from './telemetry.js';
 export { SyntheticFeed, RESIDUAL_ALERT, DEFAULT_BURST_FACTOR, type Feed, type FeedKind, type FeedTruth, type FeedOptions } from './synthetic.js';
 
+export { runFeed, type FeedRunOptions } from './runner.js';
+
 export const FEED_KINDS: readonly FeedKind[] = ['gearbox', 'range', 'telemetry'];
 
 /** A feed of the given scenario with its default sizes. */
