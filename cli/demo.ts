@@ -45,8 +45,6 @@ export async function demoCommand(values: OptionValues): Promise<number> {
     process.stderr.write(`sparsewire demo: could not start the daemon: ${(err as Error).message}\n(another program may use the port: try --port 0)\n`);
     return EXIT.failure;
   }
-  process.stdout.write(`sparsewire listening on ${daemon.url}\n`);
-  process.stdout.write(`dashboard: ${daemon.url}/\n`);
 
   const producer = new Producer({ url: daemon.url });
   const watcher = new Subscriber({ url: daemon.url });
@@ -69,6 +67,8 @@ export async function demoCommand(values: OptionValues): Promise<number> {
       process.stdout.write(`stream ${feed.declaration.name}: ${feed.declaration.note ?? feed.kind}, ${feed.framesPerSecond} frames/s\n`);
       runs.push(runFeed(feed, stream, { signal: stop.signal, onFrame: () => board.sent(feed.declaration.name) }));
     }
+    // Announced once the streams exist, so whoever follows the address finds them live.
+    process.stdout.write(`sparsewire listening on ${daemon.url}\ndashboard: ${daemon.url}/\n`);
     const burstEvery = num(values, 'burst-every') ?? 30;
     if (burstEvery > 0) {
       let next = 0;

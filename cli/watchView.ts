@@ -43,6 +43,10 @@ export function resultJson(r: Result, k: number, now: number): string {
 }
 
 export function noticeJson(msg: AlertMessage | MissedMessage | StreamEventMessage, now: number): string {
+  if (msg.type === 'stream_event') {
+    const { v: _v, type: _t, event, ...fields } = msg;
+    return JSON.stringify({ event: 'stream', change: event, ...fields, received_at: now });
+  }
   const { v: _v, type, ...fields } = msg;
   return JSON.stringify({ event: type, ...fields, received_at: now });
 }
