@@ -36,7 +36,10 @@ export async function recordCommand(values: OptionValues): Promise<number> {
   const limit = num(values, 'count');
   const stop = stopWhen(num(values, 'for'));
   subscriber.on('result', () => {
-    if (limit !== undefined && recorder.counts.results >= limit) stop.abort();
+    if (limit !== undefined && recorder.counts.results >= limit) {
+      recorder.stop();
+      stop.abort();
+    }
   });
   try {
     await subscriber.connect();

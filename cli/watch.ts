@@ -37,6 +37,7 @@ export async function watchCommand(values: OptionValues): Promise<number> {
   let results = 0;
   const out = (line: string) => process.stdout.write(`${line}\n`);
   subscriber.on('result', (r) => {
+    if (limit !== undefined && results >= limit) return; // results still in flight after --count
     const now = Date.now();
     results++;
     if (json) out(resultJson(r, k, now));

@@ -19,6 +19,7 @@ export interface RecorderCounts {
  */
 export class SessionRecorder {
   #writer: RecordingWriter | null = null;
+  #stopped = false;
   readonly #held: Array<{ message: RecordedMessage; at: number }> = [];
   readonly counts: RecorderCounts = { frames: 0, results: 0, alerts: 0, missed: 0, streamEvents: 0 };
 
@@ -40,6 +41,11 @@ export class SessionRecorder {
     return this.#writer?.bytes ?? 0;
   }
 
+  /** Takes no more messages (what arrives from now on is not recorded). */
+  stop(): void {
+    this.#stopped = true;
+  }
+
   /** Syncs and closes the file. */
   close(): void {
     this.#writer?.close();
@@ -55,6 +61,7 @@ export class SessionRecorder {
   }
 
   #put(message: RecordedMessage, counter: keyof RecorderCounts): void {
+    if (this.#stopped) return;
     this.counts[counter]++;
     const at = Date.now();
     if (this.#writer) this.#writer.append(message, at);
