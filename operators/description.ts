@@ -257,8 +257,28 @@ function checkWindow(window: Window, n: number): void {
   if (window.im !== undefined && window.im.length !== n) {
     fail('window.im', `has ${window.im.length} entries, the window length must be n = ${n}`);
   }
-  const nonzero = window.re.some((v) => v !== 0) || (window.im?.some((v) => v !== 0) ?? false);
-  if (!nonzero) fail('window', 'is all zero; a Gabor window needs some energy');
+  checkEnergy('window.', window.re, window.im, 'a Gabor window needs some energy');
+}
+
+/**
+ * Energy (sum of squares of the entries) accepted for explicit windows and matrices: 2^-1000 to
+ * 2^1000. Outside it the window normalisation, the norm bound or the solvers' step size (which
+ * divides by the bound squared) underflow or overflow to 0, NaN or Infinity, and no solver can
+ * use the operator.
+ */
+const MIN_ENERGY = 2 ** -1000;
+const MAX_ENERGY = 2 ** 1000;
+
+/** `prefix` + 're' or 'im', whichever holds more of the energy, is named in the error. */
+function checkEnergy(prefix: string, re: number[], im: number[] | undefined, why: string): void {
+  const sumOfSquares = (values: number[]) => values.reduce((acc, v) => acc + v * v, 0);
+  const reEnergy = sumOfSquares(re);
+  const imEnergy = sumOfSquares(im ?? []);
+  const energy = reEnergy + imEnergy;
+  const field = `${prefix}${imEnergy > reEnergy ? 'im' : 're'}`;
+  if (energy === 0 && re.every((v) => v === 0) && (im ?? []).every((v) => v === 0)) fail(prefix === '' ? 're' : prefix.slice(0, -1), `is all zero; ${why}`);
+  if (!(energy >= MIN_ENERGY)) fail(field, 'is too small: the sum of squares of the entries is below 2^-1000; scale them up');
+  if (!(energy <= MAX_ENERGY)) fail(field, 'has entries too large: the sum of squares of the entries exceeds 2^1000; scale them down');
 }
 
 function checkGrid(grid: GaborGridDescription, n: number): void {
@@ -286,6 +306,7 @@ function checkDense(desc: Extract<OperatorDescription, { rows: number }>): void 
     if (desc.im !== undefined && desc.im.length !== entries) {
       fail('im', `has ${desc.im.length} entries, rows·cols = ${entries} (row-major)`);
     }
+    checkEnergy('', desc.re, desc.im, 'a measurement matrix needs some nonzero entry');
   }
   checkBasis(desc.basis, desc.cols, 'cols');
 }

@@ -2,7 +2,7 @@ import { pack, unpack } from 'msgpackr';
 import type { z } from 'zod';
 import { fieldPath, ProtocolError } from './errors.js';
 import { isPlainMap } from './declaration.js';
-import { MAX_MESSAGE_BYTES, PROTOCOL_VERSION } from './limits.js';
+import { MAX_MESSAGE_BYTES, MAX_REF_LENGTH, PROTOCOL_VERSION } from './limits.js';
 import { messageSchemas, type Message, type MessageType } from './messages.js';
 
 /**
@@ -41,10 +41,15 @@ export function decode(bytes: Uint8Array): Message {
   } catch (err) {
     throw new ProtocolError('malformed', `not a MessagePack message: ${(err as Error).message}`);
   }
-  const ref = isPlainMap(raw) && typeof raw.ref === 'string' ? raw.ref : undefined;
+  // Only a ref that could be echoed in an `error` reply is kept (an invalid one is itself the error).
+  const ref = isPlainMap(raw) && isValidRef(raw.ref) ? raw.ref : undefined;
   if (!isPlainMap(raw)) throw new ProtocolError('not_a_map', 'a message must be a MessagePack map', undefined, ref);
   normalizeIntegers(raw, [], 0, ref);
   return validate(raw, ref);
+}
+
+function isValidRef(ref: unknown): ref is string {
+  return typeof ref === 'string' && ref.length >= 1 && ref.length <= MAX_REF_LENGTH;
 }
 
 function validate(raw: unknown, ref: string | undefined): Message {
