@@ -3,6 +3,7 @@ import { helpText, parseCommandLine, type CommandSpec, type OptionValues } from 
 import { demoCommand, demoSpec } from './demo.js';
 import { EXIT } from './exitCodes.js';
 import { inspectCommand, inspectSpec } from './inspect.js';
+import { loadCommand, loadSpec } from './load.js';
 import { recordCommand, recordSpec } from './record.js';
 import { replayCommand, replaySpec } from './replay.js';
 import { reportFailure } from './runtime.js';
@@ -33,6 +34,7 @@ function overview(): string {
   const rows: Array<[string, string]> = [
     ['serve', 'run the daemon (see sparsewire serve --help)'],
     ...COMMANDS.map((c): [string, string] => [c.spec.name, c.spec.summary]),
+    [loadSpec.name, loadSpec.summary],
     ['help', 'help on one command: sparsewire help <command>'],
   ];
   return [
@@ -68,6 +70,7 @@ export async function main(argv: string[]): Promise<number> {
     return EXIT.ok;
   }
   if (name === 'serve') return serveCommand(rest);
+  if (name === 'load') return loadCommand(rest);
   if (name === 'help') {
     const topic = rest[0];
     if (topic === undefined) {
@@ -75,6 +78,7 @@ export async function main(argv: string[]): Promise<number> {
       return EXIT.ok;
     }
     if (topic === 'serve') return serveCommand(['--help']);
+    if (topic === 'load') return loadCommand(['--help']);
     const command = COMMANDS.find((c) => c.spec.name === topic);
     if (!command) return unknown(topic);
     process.stdout.write(helpText(command.spec));
@@ -95,7 +99,7 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 function unknown(name: string): number {
-  process.stderr.write(`sparsewire: unknown command "${name}" (commands: serve, ${COMMANDS.map((c) => c.spec.name).join(', ')}; see sparsewire --help)\n`);
+  process.stderr.write(`sparsewire: unknown command "${name}" (commands: serve, load, ${COMMANDS.map((c) => c.spec.name).join(', ')}; see sparsewire --help)\n`);
   return EXIT.usage;
 }
 

@@ -1,0 +1,357 @@
+import os from 'node:os';
+import { randomBytes } from 'node:crypto';
+import type { BehindPolicy } from '../protocol/index.js';
+import { measureBareSolve, mixtureMedian, type BareSolve } from './bareSolve.js';
+import { counterDelta, type DaemonCounters } from './daemonCounters.js';
+import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
+import { closeSession, openSession } from './loadSession.js';
+import { runStep, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
+import { describeMachine, finishMachine, type MachineDescription } from './machine.js';
+import { canSampleProcesses } from './procStats.js';
+import { buildScenario, frameShares, prepareScenario, type PreparedScenario, type ScenarioName } from './scenarios.js';
+import { findSaturation, type SearchSettings } from './search.js';
+
+/** Everything a load run needs to know (the CLI fills it from flags and presets). */
+export interface LoadSettings {
+  mode: 'quick' | 'full';
+  scenarios: ScenarioName[];
+  smallStreams: number;
+  /** An existing daemon to load instead of starting one (pid: sample it when it runs here). */
+  target: { url: string; token?: string; pid?: number } | null;
+  /** Worker threads of the daemon we start (default: its own default, one per core). */
+  workers?: number;
+  streamsPerConnection: number;
+  slowPolicies: BehindPolicy[];
+  slowBytesPerSecond: number;
+  limits: StepLimits;
+  search: Pick<SearchSettings, 'growth' | 'precision' | 'maxSteps' | 'stepSeconds' | 'settleSeconds'>;
+  warmupSeconds: number;
+  /** Length of the run at 70 % of saturation. */
+  holdSeconds: number;
+  /** The overload step runs at this multiple of saturation... */
+  overloadFactor: number;
+  /** ...for this long. */
+  overloadSeconds: number;
+  /** Run these loads (frames/s) instead of searching for saturation. */
+  fixedRates: number[] | null;
+  /** The whole run stops starting new steps past this. */
+  deadlineSeconds: number;
+  signal?: AbortSignal;
+  log: (line: string) => void;
+}
+
+export interface GroupReport {
+  label: string;
+  description: string;
+  streams: number;
+  relative_rate: number;
+  share_of_frames: number;
+  bare_solve_median_ms: number;
+  bare_solve_p90_ms: number;
+}
+
+/** sent = solved + refused + dropped, checked three ways over a whole scenario. */
+export interface ScenarioAccounting {
+  sent: number;
+  solved: number;
+  refused: number;
+  dropped: number;
+  /** From the reference subscriber's results and notices: sent − solved − refused − dropped. */
+  unaccounted: number;
+  /** From the producers' acks. */
+  acked_unaccounted: number;
+  /** The daemon's own counters against ours (null when its metrics could not be read). */
+  daemon_counters: DaemonCounters | null;
+  /** Sum of |differences| between the daemon's counters and ours (0 when they agree or were not read). */
+  daemon_counter_mismatch: number;
+  ok: boolean;
+}
+
+export interface ScenarioReport {
+  name: ScenarioName;
+  summary: string;
+  groups: GroupReport[];
+  /** Median solve time of a frame drawn from the scenario's traffic, solved bare in-process. */
+  median_bare_solve_ms: number;
+  streams: number;
+  producer_connections: number;
+  declare_seconds: number;
+  daemon: { kind: 'started' | 'target'; url: string; workers: number | null; measured: boolean };
+  warmup: StepResult | null;
+  steps: StepResult[];
+  saturation_fps: number | null;
+  first_failing_fps: number | null;
+  at_70pct: StepResult | null;
+  overload: StepResult | null;
+  p99_over_median_solve_at_70pct: number | null;
+  /** Highest resident memory of the daemon during the scenario (VmHWM), MiB. */
+  daemon_peak_rss_mb: number | null;
+  accounting: ScenarioAccounting;
+  problems: string[];
+}
+
+export interface LoadReport {
+  suite: 'loadtest';
+  format: 1;
+  mode: LoadSettings['mode'];
+  started_at: string;
+  finished_at: string;
+  duration_s: number;
+  machine: MachineDescription;
+  settings: Record<string, unknown>;
+  scenarios: ScenarioReport[];
+  figures: Record<string, number>;
+  accounting_ok: boolean;
+  problems: string[];
+}
+
+/** Runs every scenario of the settings, one daemon per scenario, and gathers the report. */
+export async function runLoad(settings: LoadSettings): Promise<LoadReport> {
+  const started = new Date();
+  const t0 = performance.now();
+  const machine = describeMachine();
+  const deadline = t0 + settings.deadlineSeconds * 1000;
+  const scenarios: ScenarioReport[] = [];
+  const problems: string[] = [];
+  const runId = randomBytes(3).toString('hex');
+  for (const name of settings.scenarios) {
+    if (settings.signal?.aborted) break;
+    if (performance.now() > deadline) {
+      problems.push(`time budget of ${settings.deadlineSeconds} s spent before scenario ${name}`);
+      break;
+    }
+    scenarios.push(await runScenario(name, `lt${runId}`, settings, deadline));
+  }
+  const figures = headlineFigures(scenarios, settings.mode);
+  return {
+    suite: 'loadtest',
+    format: 1,
+    mode: settings.mode,
+    started_at: started.toISOString(),
+    finished_at: new Date().toISOString(),
+    duration_s: (performance.now() - t0) / 1000,
+    machine: finishMachine(machine),
+    settings: settingsForReport(settings),
+    scenarios,
+    figures,
+    accounting_ok: scenarios.every((s) => s.accounting.ok),
+    problems: [...problems, ...scenarios.flatMap((s) => s.problems.map((p) => `${s.name}: ${p}`))],
+  };
+}
+
+function settingsForReport(s: LoadSettings): Record<string, unknown> {
+  return {
+    scenarios: s.scenarios,
+    small_streams: s.smallStreams,
+    target: s.target ? s.target.url : null,
+    workers: s.workers ?? null,
+    streams_per_connection: s.streamsPerConnection,
+    slow_subscribers: s.slowPolicies,
+    slow_read_bytes_per_s: s.slowBytesPerSecond,
+    p99_limit_ms: s.limits.p99LimitMs,
+    loss_limit: s.limits.lossLimit,
+    drain_timeout_ms: s.limits.drainTimeoutMs,
+    search: s.search,
+    warmup_s: s.warmupSeconds,
+    hold_s: s.holdSeconds,
+    overload_factor: s.overloadFactor,
+    overload_s: s.overloadSeconds,
+    fixed_rates: s.fixedRates,
+    deadline_s: s.deadlineSeconds,
+  };
+}
+
+async function runScenario(name: ScenarioName, prefix: string, settings: LoadSettings, deadline: number): Promise<ScenarioReport> {
+  const log = settings.log;
+  const prepared = prepareScenario(buildScenario(name, { smallStreams: settings.smallStreams }), `${prefix}.${name}`);
+  log(`${name}: ${prepared.scenario.summary}`);
+  const shares = frameShares(prepared.scenario);
+  const bare = prepared.groups.map((g) => measureBareSolve(g));
+  const medianBare = mixtureMedian(bare.map((b, i) => ({ samplesMs: b.samplesMs, share: shares[i]! })));
+  log(`${name}: bare solve median ${medianBare.toFixed(3)} ms (${bare.map((b) => `${b.label} ${b.medianMs.toFixed(3)} ms`).join(', ')})`);
+
+  const problems: string[] = [];
+  let child: ChildDaemon | null = null;
+  const workers = settings.target ? null : (settings.workers ?? os.availableParallelism());
+  const report: ScenarioReport = {
+    name,
+    summary: prepared.scenario.summary,
+    groups: groupReports(prepared, bare, shares),
+    median_bare_solve_ms: medianBare,
+    streams: prepared.streams.length,
+    producer_connections: 0,
+    declare_seconds: 0,
+    daemon: { kind: settings.target ? 'target' : 'started', url: '', workers, measured: false },
+    warmup: null,
+    steps: [],
+    saturation_fps: null,
+    first_failing_fps: null,
+    at_70pct: null,
+    overload: null,
+    p99_over_median_solve_at_70pct: null,
+    daemon_peak_rss_mb: null,
+    accounting: { sent: 0, solved: 0, refused: 0, dropped: 0, unaccounted: 0, acked_unaccounted: 0, daemon_counters: null, daemon_counter_mismatch: 0, ok: true },
+    problems,
+  };
+  let session: LoadSession | null = null;
+  try {
+    const url = settings.target?.url ?? (child = await startChildDaemon({ maxStreamsPerConnection: settings.streamsPerConnection, ...(settings.workers ? { workers: settings.workers } : {}) })).url;
+    const pid = child?.pid ?? settings.target?.pid;
+    report.daemon.url = url;
+    report.daemon.measured = pid !== undefined && canSampleProcesses();
+    const declareStart = performance.now();
+    session = await openSession(prepared, {
+      connection: { url, ...(settings.target?.token ? { token: settings.target.token } : {}) },
+      streamsPerConnection: settings.streamsPerConnection,
+      slowPolicies: settings.slowPolicies,
+      slowBytesPerSecond: settings.slowBytesPerSecond,
+      daemonPid: report.daemon.measured ? pid : undefined,
+      declareTimeoutMs: 120_000,
+    });
+    report.declare_seconds = (performance.now() - declareStart) / 1000;
+    report.producer_connections = session.producers.connectionCount;
+    log(`${name}: ${prepared.streams.length} streams declared over ${session.producers.connectionCount} connections in ${report.declare_seconds.toFixed(1)} s`);
+    const countersAtStart = await session.readCounters();
+    await runPhases(session, report, settings, deadline, medianBare);
+    report.accounting = finalAccounting(session, countersAtStart, await session.readCounters(), settings.target === null);
+    if (!report.accounting.ok) problems.push('accounting failed: see the accounting table');
+    const usage = session.daemonSampler?.window();
+    report.daemon_peak_rss_mb = usage?.peakRssMb ?? null;
+  } catch (err) {
+    problems.push((err as Error).message);
+    report.accounting.ok = false;
+  } finally {
+    if (session) await closeSession(session, settings.target !== null, 60_000).catch((err: Error) => problems.push(`closing: ${err.message}`));
+    if (child) {
+      if (child.exited) problems.push(`the daemon exited during the run (${JSON.stringify(child.exited)}); its log ends: ${child.logTail()}`);
+      await child.stop();
+    }
+  }
+  return report;
+}
+
+function groupReports(prepared: PreparedScenario, bare: BareSolve[], shares: number[]): GroupReport[] {
+  return prepared.scenario.groups.map((g, i) => ({
+    label: g.label,
+    description: g.description,
+    streams: g.count,
+    relative_rate: g.relativeRate,
+    share_of_frames: shares[i]!,
+    bare_solve_median_ms: bare[i]!.medianMs,
+    bare_solve_p90_ms: bare[i]!.p90Ms,
+  }));
+}
+
+/** Warm-up, then the search (or the fixed loads), then the hold at 70 % and the overload step. */
+async function runPhases(session: LoadSession, report: ScenarioReport, settings: LoadSettings, deadline: number, medianBareMs: number): Promise<void> {
+  const log = settings.log;
+  const { limits } = settings;
+  const stepLog = (s: StepResult) =>
+    log(
+      `${report.name}: ${s.label.padEnd(10)} offered ${s.offered_fps.toFixed(0).padStart(6)}/s solved ${s.throughput_fps.toFixed(0).padStart(6)}/s ` +
+        `p50 ${s.latency_ms.p50.toFixed(1)} p99 ${s.latency_ms.p99.toFixed(1)} ms loss ${(100 * s.loss_fraction).toFixed(2)} %` +
+        `${s.daemon ? ` daemon ${s.daemon.cpuPercent.toFixed(0)} % CPU ${s.daemon.rssMaxMb.toFixed(0)} MiB` : ''} ${s.pass ? 'pass' : `FAIL (${s.reasons.join('; ')})`}`,
+    );
+  const timeLeft = (seconds: number) => !settings.signal?.aborted && performance.now() + seconds * 1000 < deadline;
+  const streams = session.prepared.streams.length;
+  // Capacity guess from the bare solve time and the worker count, only to place the first steps.
+  const estimate = ((report.daemon.workers ?? os.availableParallelism()) * 1000) / medianBareMs;
+
+  const warmFps = Math.min(0.3 * estimate, (2 * streams) / settings.warmupSeconds);
+  report.warmup = await runStep(session, { label: 'warm-up', offeredFps: warmFps, seconds: settings.warmupSeconds, settleSeconds: 0 }, limits);
+  stepLog(report.warmup);
+
+  if (settings.fixedRates) {
+    for (const [i, fps] of settings.fixedRates.entries()) {
+      if (!timeLeft(settings.search.stepSeconds)) break;
+      const step = await runStep(session, { label: `load ${i + 1}`, offeredFps: fps, seconds: settings.search.stepSeconds, settleSeconds: settings.search.settleSeconds }, limits);
+      report.steps.push(step);
+      stepLog(step);
+    }
+    return;
+  }
+  const startFps = 0.25 * estimate;
+  const search = { ...settings.search, startFps, minFps: startFps / 30 };
+  // Bound the search by the time left: each step costs about its length plus a drain.
+  const affordable = Math.floor((deadline - performance.now()) / 1000 / (search.stepSeconds + 1.5)) - 3;
+  const outcome = await findSaturation(session, { ...search, maxSteps: Math.max(1, Math.min(search.maxSteps, affordable)) }, limits, stepLog);
+  report.steps.push(...outcome.steps);
+  report.saturation_fps = outcome.saturationFps;
+  report.first_failing_fps = outcome.firstFailingFps;
+  log(`${report.name}: saturation ${outcome.saturationFps.toFixed(0)} frames/s`);
+  if (outcome.saturationFps <= 0) return;
+  if (timeLeft(settings.holdSeconds)) {
+    const hold = await runStep(session, { label: '70 %', offeredFps: 0.7 * outcome.saturationFps, seconds: settings.holdSeconds, settleSeconds: settings.search.settleSeconds }, limits);
+    report.at_70pct = hold;
+    report.p99_over_median_solve_at_70pct = hold.latency_ms.p99 / medianBareMs;
+    stepLog(hold);
+  }
+  if (timeLeft(settings.overloadSeconds)) {
+    const overload = await runStep(
+      session,
+      { label: 'overload', offeredFps: settings.overloadFactor * outcome.saturationFps, seconds: settings.overloadSeconds, settleSeconds: settings.search.settleSeconds },
+      limits,
+    );
+    report.overload = overload;
+    stepLog(overload);
+  }
+}
+
+function finalAccounting(session: LoadSession, before: DaemonCounters | undefined, after: DaemonCounters | undefined, ownDaemon: boolean): ScenarioAccounting {
+  const p = session.producers.counts;
+  const r = session.reference.counts;
+  const solved = r.results + r.missedBehind;
+  const dropped = r.missedDropped;
+  const counters = before && after ? counterDelta(after, before) : null;
+  // Against a daemon we did not start, other clients may move its counters: compare only our own.
+  const mismatch = counters && ownDaemon
+    ? Math.abs(counters.received - p.sent) + Math.abs(counters.solved - solved) + Math.abs(counters.refused - p.refused) + Math.abs(counters.dropped - dropped)
+    : 0;
+  const unaccounted = p.sent - solved - p.refused - dropped;
+  const ackedUnaccounted = p.sent - p.refused - p.ackedSolved - p.ackedDropped;
+  return {
+    sent: p.sent,
+    solved,
+    refused: p.refused,
+    dropped,
+    unaccounted,
+    acked_unaccounted: ackedUnaccounted,
+    daemon_counters: counters,
+    daemon_counter_mismatch: mismatch,
+    ok: unaccounted === 0 && ackedUnaccounted === 0 && mismatch === 0 && p.ackedDropped === dropped,
+  };
+}
+
+/** Figure keys: lower-case words joined by '_'. */
+const key = (name: string) => name.replace(/-/g, '_');
+
+/**
+ * The figures printed as the last line: the headline ones from the many-small-streams scenario
+ * (the first scenario when that one did not run), and per-scenario ones in a full run.
+ */
+export function headlineFigures(scenarios: ScenarioReport[], mode: LoadSettings['mode']): Record<string, number> {
+  const figures: Record<string, number> = {};
+  const head = scenarios.find((s) => s.name === 'small') ?? scenarios[0];
+  if (head) {
+    if (head.saturation_fps !== null) figures.saturation_frames_per_s = round(head.saturation_fps);
+    if (head.p99_over_median_solve_at_70pct !== null) figures.p99_over_median_solve_at_70pct = round(head.p99_over_median_solve_at_70pct);
+    if (head.at_70pct) figures.p99_ms_at_70pct = round(head.at_70pct.latency_ms.p99);
+    figures.median_bare_solve_ms = round(head.median_bare_solve_ms);
+  }
+  const small = scenarios.find((s) => s.name === 'small');
+  if (small && small.daemon_peak_rss_mb !== null) figures[`rss_mb_${small.streams}_streams`] = round(small.daemon_peak_rss_mb);
+  figures.unaccounted_frames = scenarios.reduce(
+    (n, s) => n + Math.abs(s.accounting.unaccounted) + Math.abs(s.accounting.acked_unaccounted) + s.accounting.daemon_counter_mismatch,
+    0,
+  );
+  if (mode !== 'quick') {
+    for (const s of scenarios) {
+      if (s === head) continue;
+      if (s.saturation_fps !== null) figures[`saturation_frames_per_s_${key(s.name)}`] = round(s.saturation_fps);
+      if (s.p99_over_median_solve_at_70pct !== null) figures[`p99_over_median_solve_at_70pct_${key(s.name)}`] = round(s.p99_over_median_solve_at_70pct);
+    }
+  }
+  return figures;
+}
+
+const round = (v: number) => Math.round(v * 1000) / 1000;
