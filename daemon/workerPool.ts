@@ -8,9 +8,10 @@ import type { WorkerReply, WorkerRequest } from './workerProtocol.js';
  * live. The pipeline keeps at most one frame per stream in flight, so a worker's queue is at most
  * its number of streams. A frame's measurements are transferred, not copied.
  *
- * A worker that dies (uncaught error, out of memory, terminated) is replaced at once: requests
- * it had in flight fail, and its streams are opened again on the least-loaded workers. Their
- * next frame is solved cold (the warm state died with the worker) and is flagged `cold_start`.
+ * A worker that dies (uncaught error, out of memory, terminated) is replaced at once: its streams
+ * are opened again on the least-loaded workers, and a frame it was solving is solved again there.
+ * That frame, or the stream's next one, is solved cold (the warm state died with the worker) and
+ * is flagged `cold_start`.
  */
 
 const BOOTSTRAP = new URL('./workerBootstrap.mjs', import.meta.url);
@@ -25,6 +26,9 @@ export class WorkerError extends Error {
     this.name = 'WorkerError';
   }
 }
+
+/** The worker holding a request died before answering it. */
+class WorkerStoppedError extends WorkerError {}
 
 interface Pending {
   resolve: (reply: WorkerReply & { ok: true }) => void;
@@ -77,14 +81,34 @@ export class WorkerPool implements SolveBackend {
   /** Pins the stream to the least-loaded worker and builds its operator there. */
   open(stream: string, declaration: StreamDeclaration): Promise<StreamShape> {
     if (this.placements.has(stream)) throw new Error(`stream "${stream}" is already open`);
-    return this.place(stream, declaration).ready;
+    return this.place(stream, declaration).ready.catch((err: unknown) => {
+      // The worker died while building the operator: the stream was already re-homed on its successor.
+      const successor = this.placements.get(stream);
+      if (err instanceof WorkerStoppedError && !this.stopping && successor !== undefined) return successor.ready;
+      throw err;
+    });
   }
 
+  /**
+   * Solves one frame on its stream's worker. If that worker dies meanwhile, the frame is solved
+   * once more, cold, on the worker that took the stream over (y is transferred, so a copy is
+   * kept for that); a frame that kills its second worker as well fails.
+   */
   async solve(task: SolveTask): Promise<SolveOutput> {
+    const spare = task.y.slice();
+    try {
+      return await this.solveOnce(task, task.y);
+    } catch (err) {
+      if (!(err instanceof WorkerStoppedError) || this.stopping) throw err;
+      return await this.solveOnce(task, spare);
+    }
+  }
+
+  private async solveOnce(task: SolveTask, y: Float64Array): Promise<SolveOutput> {
     const placement = this.placements.get(task.stream);
     if (placement === undefined) throw new WorkerError(`stream "${task.stream}" is not open`);
     await placement.ready;
-    const { stream, seq, y, sigma, wantSignal } = task;
+    const { stream, seq, sigma, wantSignal } = task;
     const req: WorkerRequest = { type: 'solve', id: 0, stream, seq, y, wantSignal, ...(sigma !== undefined ? { sigma } : {}) };
     const reply = await this.request(placement.slot, req, [y.buffer as ArrayBuffer]);
     return (reply as { output: SolveOutput }).output;
@@ -163,7 +187,7 @@ export class WorkerPool implements SolveBackend {
   }
 
   private replace(dead: Slot, reason: string): void {
-    for (const p of dead.pending.values()) p.reject(new WorkerError(`solver worker ${dead.index} stopped: ${reason}`));
+    for (const p of dead.pending.values()) p.reject(new WorkerStoppedError(`solver worker ${dead.index} stopped: ${reason}`));
     dead.pending.clear();
     if (this.stopping) return;
     const fresh = this.spawn(dead.index);
