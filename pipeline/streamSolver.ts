@@ -7,10 +7,7 @@ import {
   type OperatorDescription,
   type UnitaryBasis,
 } from '../operators/index.js';
-import * as solvers from '../solvers/index.js';
-import { SolverSettingsError, parseSolverSettings, solve, type SolverSettings } from '../solvers/index.js';
-// TEMPORARY until solvers/ exports recoverability (colleague's WIP).
-const recoverability = (solvers as unknown as { recoverability?: (f: string, m: number, n: number, s: number) => { verdict: 'safe' | 'marginal' | 'unlikely' } }).recoverability ?? (() => ({ verdict: 'safe' as const }));
+import { SolverSettingsError, parseSolverSettings, recoverability, solve, type RecoveryMethod, type SolverSettings } from '../solvers/index.js';
 import type { WarmState } from '../solvers/types.js';
 import type { SolveOutput, StreamDeclaration, StreamShape } from './types.js';
 
@@ -51,10 +48,6 @@ function joinPath(prefix: string, field: string): string {
   return field === '' ? prefix : field.startsWith('[') ? `${prefix}${field}` : `${prefix}.${field}`;
 }
 
-/** The operator family the recoverability table knows this description by. */
-export function recoveryFamily(desc: OperatorDescription): string {
-  return desc.kind;
-}
 
 /**
  * One stream's solving state, as it lives on its worker: the built operator, the sparsity basis
@@ -65,6 +58,8 @@ export class StreamSolver {
   private readonly operator: LinearOperator;
   private readonly basis: UnitaryBasis | undefined;
   private readonly settings: SolverSettings;
+  /** Which phase transition applies: reweighted l1 recovers more than plain l1 (and greedy methods). */
+  private readonly recovery: RecoveryMethod;
   private warm: WarmState | undefined;
 
   constructor(declaration: StreamDeclaration) {
@@ -72,7 +67,9 @@ export class StreamSolver {
     this.operator = buildOperator(operator);
     this.settings = solver;
     this.basis = synthesisBasis(operator);
-    this.shape = { rows: this.operator.rows, cols: this.operator.cols, family: recoveryFamily(operator) };
+    this.recovery = solver.method === 'reweighted_l1' ? 'reweighted_l1' : 'l1';
+    // The operator kind is what the recoverability table is keyed by (solvers' familyFor).
+    this.shape = { rows: this.operator.rows, cols: this.operator.cols, family: operator.kind };
   }
 
   /** Solves one frame. `y` is returned in the output untouched. */
@@ -109,7 +106,7 @@ export class StreamSolver {
         support_size: support.length,
         added: result.supportChange.added,
         removed: result.supportChange.removed,
-        recoverability: recoverability(this.shape.family, this.shape.rows, this.shape.cols, support.length).verdict,
+        recoverability: recoverability(this.shape.family, this.shape.rows, this.shape.cols, support.length, this.recovery).verdict,
         solve_ms: solveMs,
       },
       coldStart,

@@ -1,0 +1,257 @@
+/**
+ * Benchmark suite `pipeline`: what the daemon adds on top of the solver, and how it scales
+ * over worker threads.
+ *
+ * - overhead_over_solver: the same frame set is solved bare in this process (StreamSolver, the
+ *   code a worker runs), then sent through a daemon over loopback WebSocket at moderate load (one
+ *   worker, frames paced at twice the bare solve time, i.e. about 50% busy); the figure is the
+ *   mean time from sending a frame to receiving its result over the mean bare solve time.
+ *   Target ≤ 1.15.
+ * - workers_2_over_1: saturation throughput (frames solved per second with every stream's queue
+ *   kept full through credits) with two workers over one, four streams spread over the workers.
+ *   Target ≥ 1.7 on a 2-core machine.
+ *
+ * Frames: a gearbox vibration feed (clients/feeds) with n = 2048, m = 256 time samples per
+ * frame, solved with LASSO; the first frames of every run (operator build, JIT) are excluded.
+ * This machine is shared (tests and other benchmarks run beside it), so every measurement is
+ * repeated and interleaved, and the least disturbed repeat kept: per frame the fastest bare solve
+ * and the fastest trip through the daemon, per configuration the highest throughput (common
+ * practice, no source: interference only ever adds time).
+ * Options: --frames N (timed frames per stream, default 100), --streams S (default 4),
+ * --repeats R (default 3).
+ */
+import pino from 'pino';
+import WebSocket from 'ws';
+import { GearboxFeed } from '../../clients/feeds/index.js';
+import { startDaemon, type RunningDaemon } from '../../daemon/index.js';
+import { StreamSolver } from '../../pipeline/streamSolver.js';
+import type { StreamDeclaration as PipelineDeclaration } from '../../pipeline/types.js';
+import { DEFAULT_QUEUE, decode, encode, float64ToBin, type Message, type StreamDeclaration } from '../../protocol/index.js';
+import type { BenchResult } from './main.js';
+
+const WARMUP = 10;
+const N = 2048;
+const M = 256;
+
+interface FrameSet {
+  declaration: StreamDeclaration;
+  ys: Float64Array[];
+}
+
+function frameSet(name: string, count: number, seed: number): FrameSet {
+  const feed = new GearboxFeed({ name, n: N, m: M, seed });
+  // A queue that holds the whole set: a disturbed run shows up as queueing time, never as refusals.
+  const declaration: StreamDeclaration = { ...feed.declaration, solver: { method: 'lasso' }, alerts: [], queue: { capacity: count, policy: 'refuse_new' } };
+  return { declaration, ys: Array.from({ length: count }, () => feed.next().slice()) };
+}
+
+function pipelineDeclaration(d: StreamDeclaration): PipelineDeclaration {
+  return { ...d, alerts: d.alerts ?? [], queue: d.queue ?? { ...DEFAULT_QUEUE } };
+}
+
+/** Bare solve time (ms) of each frame after the warm-up, solved in order with warm starts. */
+function bareSolveMs(set: FrameSet): number[] {
+  const solver = new StreamSolver(pipelineDeclaration(set.declaration));
+  const times: number[] = [];
+  set.ys.forEach((y, t) => {
+    const started = performance.now();
+    solver.solve(y.slice(), set.declaration.noise_sigma, false);
+    if (t >= WARMUP) times.push(performance.now() - started);
+  });
+  return times;
+}
+
+/** A bare WebSocket client speaking the protocol (no library between the bench and the wire). */
+class WireClient {
+  onMessage: (m: Message) => void = () => undefined;
+  private constructor(readonly ws: WebSocket) {
+    ws.on('message', (data: Buffer) => {
+      const m = decode(new Uint8Array(data));
+      // Nothing may be refused or fail in a benchmark run: stop loudly rather than wait forever.
+      if (m.type === 'refused' || m.type === 'error' || m.type === 'missed') throw new Error(`benchmark run disturbed: ${JSON.stringify(m)}`);
+      this.onMessage(m);
+    });
+  }
+  static open(url: string): Promise<WireClient> {
+    return new Promise((resolve, reject) => {
+      const ws = new WebSocket(url, { perMessageDeflate: false });
+      ws.once('open', () => resolve(new WireClient(ws)));
+      ws.once('error', reject);
+    });
+  }
+  send(m: Message): void {
+    this.ws.send(encode(m));
+  }
+  next(match: (m: Message) => boolean): Promise<Message> {
+    return new Promise((resolve) => {
+      const previous = this.onMessage;
+      this.onMessage = (m) => {
+        previous(m);
+        if (match(m)) {
+          this.onMessage = previous;
+          resolve(m);
+        }
+      };
+    });
+  }
+}
+
+async function withDaemon<T>(workers: number, body: (d: RunningDaemon) => Promise<T>): Promise<T> {
+  const daemon = await startDaemon({ port: 0, workers, stateDir: null, staticDir: null, logger: pino({ level: 'silent' }) });
+  try {
+    return await body(daemon);
+  } finally {
+    await daemon.close();
+  }
+}
+
+async function connect(daemon: RunningDaemon, sets: FrameSet[]) {
+  const base = daemon.url.replace(/^http/, 'ws');
+  const watcher = await WireClient.open(`${base}/v1/watch`);
+  watcher.send({ v: 1, type: 'subscribe', ref: 'w', streams: '*', want: ['coefficients'], when_behind: 'drop_with_notice' });
+  await watcher.next((m) => m.type === 'subscribed');
+  const producer = await WireClient.open(`${base}/v1/produce`);
+  for (const set of sets) {
+    producer.send({ v: 1, type: 'declare', ref: set.declaration.name, stream: set.declaration });
+    await producer.next((m) => m.type === 'declared' || m.type === 'error');
+  }
+  return { watcher, producer };
+}
+
+const frame = (stream: string, seq: number, y: Float64Array): Message => ({ v: 1, type: 'frame', stream, seq, time: Date.now(), y: float64ToBin(y) });
+
+/** Time (ms) from sending each frame to receiving its result, frames paced `intervalMs` apart. */
+async function endToEndMs(set: FrameSet, intervalMs: number): Promise<number[]> {
+  return withDaemon(1, async (daemon) => {
+    const { watcher, producer } = await connect(daemon, [set]);
+    const name = set.declaration.name;
+    const sentAt: number[] = [];
+    const latency: number[] = [];
+    let resolveDone!: () => void;
+    const done = new Promise<void>((r) => (resolveDone = r));
+    watcher.onMessage = (m) => {
+      if (m.type !== 'result') return;
+      latency[m.seq] = performance.now() - sentAt[m.seq]!;
+      if (m.seq === set.ys.length - 1) resolveDone();
+    };
+    // Warm-up frames one at a time, then the timed frames on a fixed schedule (open loop).
+    for (let t = 0; t < WARMUP; t++) {
+      sentAt[t] = performance.now();
+      producer.send(frame(name, t, set.ys[t]!));
+      await watcher.next((m) => m.type === 'result' && m.seq === t);
+    }
+    const start = performance.now();
+    for (let t = WARMUP; t < set.ys.length; t++) {
+      const due = start + (t - WARMUP) * intervalMs;
+      const wait = due - performance.now();
+      if (wait > 0) await new Promise((r) => setTimeout(r, wait));
+      sentAt[t] = performance.now();
+      producer.send(frame(name, t, set.ys[t]!));
+    }
+    await done;
+    producer.ws.close();
+    watcher.ws.close();
+    return latency.slice(WARMUP);
+  });
+}
+
+/** Frames solved per second with every stream's queue kept full through credits. */
+async function saturationFps(sets: FrameSet[], workers: number): Promise<number> {
+  return withDaemon(workers, async (daemon) => {
+    const { watcher, producer } = await connect(daemon, sets);
+    const credits = new Map(sets.map((s) => [s.declaration.name, 0]));
+    const nextSeq = new Map(sets.map((s) => [s.declaration.name, 0]));
+    const byName = new Map(sets.map((s) => [s.declaration.name, s]));
+    let limit = WARMUP;
+    const pump = () => {
+      for (const [name, set] of byName) {
+        while (credits.get(name)! > 0 && nextSeq.get(name)! < Math.min(limit, set.ys.length)) {
+          const seq = nextSeq.get(name)!;
+          producer.send(frame(name, seq, set.ys[seq]!));
+          nextSeq.set(name, seq + 1);
+          credits.set(name, credits.get(name)! - 1);
+        }
+      }
+    };
+    producer.onMessage = (m) => {
+      if (m.type === 'credit') {
+        credits.set(m.stream, credits.get(m.stream)! + m.grant);
+        pump();
+      }
+    };
+    for (const s of sets) credits.set(s.declaration.name, s.declaration.queue!.capacity);
+    let solved = 0;
+    let target = sets.length * WARMUP;
+    let reached!: () => void;
+    watcher.onMessage = (m) => {
+      if (m.type === 'result' && ++solved === target) reached();
+    };
+    const until = (n: number) => new Promise<void>((r) => ((target = n), (reached = r)));
+    // Warm-up: every stream's operator built and JIT settled on its worker.
+    let warm = until(sets.length * WARMUP);
+    pump();
+    await warm;
+    limit = Number.POSITIVE_INFINITY;
+    const total = sets.reduce((n, s) => n + s.ys.length, 0);
+    const started = performance.now();
+    warm = until(total);
+    pump();
+    await warm;
+    const seconds = (performance.now() - started) / 1000;
+    producer.ws.close();
+    watcher.ws.close();
+    return (total - sets.length * WARMUP) / seconds;
+  });
+}
+
+function option(args: string[], name: string, fallback: number): number {
+  const i = args.indexOf(`--${name}`);
+  if (i < 0) return fallback;
+  const v = Number(args[i + 1]);
+  if (!Number.isInteger(v) || v < 1) throw new Error(`--${name} needs a positive integer`);
+  return v;
+}
+
+/** Per index, the smallest value over the repeats. */
+function fastest(runs: number[][]): number[] {
+  return runs[0]!.map((_, i) => Math.min(...runs.map((r) => r[i]!)));
+}
+
+const sum = (xs: number[]) => xs.reduce((a, b) => a + b, 0);
+
+export async function run(args: string[]): Promise<BenchResult> {
+  const frames = option(args, 'frames', 100);
+  const streams = option(args, 'streams', 4);
+  const repeats = option(args, 'repeats', 3);
+  const single = frameSet('bench.moderate', WARMUP + frames, 1);
+  const sets = Array.from({ length: streams }, (_, i) => frameSet(`bench.saturate-${i}`, WARMUP + frames, 100 + i));
+  const bareRuns: number[][] = [];
+  const e2eRuns: number[][] = [];
+  const fps1: number[] = [];
+  const fps2: number[] = [];
+  for (let r = 0; r < repeats; r++) {
+    const bare = bareSolveMs(single);
+    bareRuns.push(bare);
+    e2eRuns.push(await endToEndMs(single, (2 * sum(bare)) / bare.length));
+    fps1.push(await saturationFps(sets, 1));
+    fps2.push(await saturationFps(sets, 2));
+  }
+  const bare = sum(fastest(bareRuns)) / frames;
+  const e2e = sum(fastest(e2eRuns)) / frames;
+  const best1 = Math.max(...fps1);
+  const best2 = Math.max(...fps2);
+  const figures = { overhead_over_solver: e2e / bare, workers_2_over_1: best2 / best1 };
+  const table = [
+    `pipeline: gearbox feed n=${N} m=${M}, LASSO, ${frames} timed frames per stream (after ${WARMUP} warm-up), best of ${repeats} repeats`,
+    '',
+    '| measure | value |',
+    '|---|---|',
+    `| bare solve, mean per frame (in-process) | ${bare.toFixed(2)} ms |`,
+    `| through the daemon at ~50% load, send → result, mean (1 worker) | ${e2e.toFixed(2)} ms |`,
+    `| overhead_over_solver (target ≤ 1.15) | ${figures.overhead_over_solver.toFixed(3)} |`,
+    `| saturation, ${streams} streams, 1 worker | ${best1.toFixed(1)} frames/s (runs: ${fps1.map((f) => f.toFixed(0)).join(', ')}) |`,
+    `| saturation, ${streams} streams, 2 workers | ${best2.toFixed(1)} frames/s (runs: ${fps2.map((f) => f.toFixed(0)).join(', ')}) |`,
+    `| workers_2_over_1 (target ≥ 1.7 on 2 cores) | ${figures.workers_2_over_1.toFixed(3)} |`,
+  ].join('\n');
+  return { table, figures };
+}
