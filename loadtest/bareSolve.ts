@@ -10,6 +10,7 @@ import type { PreparedGroup } from './scenarios.js';
 export interface BareSolve {
   label: string;
   medianMs: number;
+  meanMs: number;
   p90Ms: number;
   /** Every timed solve, ascending. */
   samplesMs: number[];
@@ -27,7 +28,13 @@ export function measureBareSolve(group: PreparedGroup, passes = 3): BareSolve {
     }
   }
   samples.sort((a, b) => a - b);
-  return { label: group.spec.label, medianMs: quantile(samples, 0.5), p90Ms: quantile(samples, 0.9), samplesMs: samples };
+  return {
+    label: group.spec.label,
+    medianMs: quantile(samples, 0.5),
+    meanMs: samples.reduce((a, b) => a + b, 0) / samples.length,
+    p90Ms: quantile(samples, 0.9),
+    samplesMs: samples,
+  };
 }
 
 /** The q-quantile of ascending values (nearest rank: the smallest value with at least q of the values at or below it). */

@@ -17,6 +17,9 @@ export interface LoadSession {
   readCounters: () => Promise<DaemonCounters | undefined>;
 }
 
+/** The step that builds every stream's warm state and settles the JIT; its limits are not judged. */
+export const WARMUP_LABEL = 'warm-up';
+
 export interface StepPlan {
   label: string;
   /** Total frames per second over all streams. */

@@ -1,6 +1,6 @@
 import { mkdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
-import type { StepResult } from './loadStep.js';
+import { WARMUP_LABEL, type StepResult } from './loadStep.js';
 import type { LoadReport, ScenarioReport } from './runLoad.js';
 import { latencyPlotSvg, type PlotPanel } from './svgPlot.js';
 
@@ -80,13 +80,14 @@ function stepRow(s: StepResult): Array<string | number> {
     mb(s.daemon?.rssMaxMb),
     f0(s.generator_cpu_percent),
     f1(s.send_lag_ms.p99),
-    s.pass ? 'pass' : `fail: ${s.reasons.join('; ')}`,
+    `${s.alerts} / ${s.missed_notices}`,
+    s.label === WARMUP_LABEL ? 'not judged' : s.pass ? 'pass' : `fail: ${s.reasons.join('; ')}`,
   ];
 }
 
 const STEP_HEADERS = [
   'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'loss %', 'refused', 'dropped',
-  'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'send lag p99 ms', 'verdict',
+  'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
 ];
 
 function scenarioMarkdown(s: ScenarioReport): string {

@@ -5,7 +5,7 @@ import { measureBareSolve, mixtureMedian, type BareSolve } from './bareSolve.js'
 import { counterDelta, type DaemonCounters } from './daemonCounters.js';
 import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
 import { closeSession, openSession } from './loadSession.js';
-import { runStep, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
+import { runStep, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
 import { describeMachine, finishMachine, type MachineDescription } from './machine.js';
 import { canSampleProcesses } from './procStats.js';
 import { buildScenario, frameShares, prepareScenario, type PreparedScenario, type ScenarioName } from './scenarios.js';
@@ -114,13 +114,15 @@ export async function runLoad(settings: LoadSettings): Promise<LoadReport> {
   const scenarios: ScenarioReport[] = [];
   const problems: string[] = [];
   const runId = randomBytes(3).toString('hex');
-  for (const name of settings.scenarios) {
+  for (const [i, name] of settings.scenarios.entries()) {
     if (settings.signal?.aborted) break;
     if (performance.now() > deadline) {
       problems.push(`time budget of ${settings.deadlineSeconds} s spent before scenario ${name}`);
       break;
     }
-    scenarios.push(await runScenario(name, `lt${runId}`, settings, deadline));
+    // Each scenario gets an equal share of the time left, so an early one cannot starve the rest.
+    const share = (deadline - performance.now()) / (settings.scenarios.length - i);
+    scenarios.push(await runScenario(name, `lt${runId}`, settings, performance.now() + share));
   }
   const figures = headlineFigures(scenarios, settings.mode);
   return {
@@ -212,7 +214,8 @@ async function runScenario(name: ScenarioName, prefix: string, settings: LoadSet
     report.producer_connections = session.producers.connectionCount;
     log(`${name}: ${prepared.streams.length} streams declared over ${session.producers.connectionCount} connections in ${report.declare_seconds.toFixed(1)} s`);
     const countersAtStart = await session.readCounters();
-    await runPhases(session, report, settings, deadline, medianBare);
+    const meanBare = bare.reduce((sum, b, i) => sum + shares[i]! * b.meanMs, 0);
+    await runPhases(session, report, settings, deadline, meanBare);
     report.accounting = finalAccounting(session, countersAtStart, await session.readCounters(), settings.target === null);
     if (!report.accounting.ok) problems.push('accounting failed: see the accounting table');
     const usage = session.daemonSampler?.window();
@@ -243,7 +246,7 @@ function groupReports(prepared: PreparedScenario, bare: BareSolve[], shares: num
 }
 
 /** Warm-up, then the search (or the fixed loads), then the hold at 70 % and the overload step. */
-async function runPhases(session: LoadSession, report: ScenarioReport, settings: LoadSettings, deadline: number, medianBareMs: number): Promise<void> {
+async function runPhases(session: LoadSession, report: ScenarioReport, settings: LoadSettings, deadline: number, meanBareMs: number): Promise<void> {
   const log = settings.log;
   const { limits } = settings;
   const stepLog = (s: StepResult) =>
@@ -254,11 +257,11 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     );
   const timeLeft = (seconds: number) => !settings.signal?.aborted && performance.now() + seconds * 1000 < deadline;
   const streams = session.prepared.streams.length;
-  // Capacity guess from the bare solve time and the worker count, only to place the first steps.
-  const estimate = ((report.daemon.workers ?? os.availableParallelism()) * 1000) / medianBareMs;
+  // Capacity guess from the mean bare solve time and the worker count, only to place the first steps.
+  const estimate = ((report.daemon.workers ?? os.availableParallelism()) * 1000) / meanBareMs;
 
   const warmFps = Math.min(0.3 * estimate, (2 * streams) / settings.warmupSeconds);
-  report.warmup = await runStep(session, { label: 'warm-up', offeredFps: warmFps, seconds: settings.warmupSeconds, settleSeconds: 0 }, limits);
+  report.warmup = await runStep(session, { label: WARMUP_LABEL, offeredFps: warmFps, seconds: settings.warmupSeconds, settleSeconds: 0 }, limits);
   stepLog(report.warmup);
 
   if (settings.fixedRates) {
@@ -272,9 +275,9 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
   }
   const startFps = 0.25 * estimate;
   const search = { ...settings.search, startFps, minFps: startFps / 30 };
-  // Bound the search by the time left: each step costs about its length plus a drain.
-  const affordable = Math.floor((deadline - performance.now()) / 1000 / (search.stepSeconds + 1.5)) - 3;
-  const outcome = await findSaturation(session, { ...search, maxSteps: Math.max(1, Math.min(search.maxSteps, affordable)) }, limits, stepLog);
+  // Keep time for the hold and overload steps after the search.
+  const reserve = settings.holdSeconds + settings.overloadSeconds + 2 * settings.search.stepSeconds;
+  const outcome = await findSaturation(session, search, limits, stepLog, () => timeLeft(settings.search.stepSeconds + reserve));
   report.steps.push(...outcome.steps);
   report.saturation_fps = outcome.saturationFps;
   report.first_failing_fps = outcome.firstFailingFps;
@@ -283,7 +286,7 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
   if (timeLeft(settings.holdSeconds)) {
     const hold = await runStep(session, { label: '70 %', offeredFps: 0.7 * outcome.saturationFps, seconds: settings.holdSeconds, settleSeconds: settings.search.settleSeconds }, limits);
     report.at_70pct = hold;
-    report.p99_over_median_solve_at_70pct = hold.latency_ms.p99 / medianBareMs;
+    report.p99_over_median_solve_at_70pct = hold.latency_ms.p99 / report.median_bare_solve_ms;
     stepLog(hold);
   }
   if (timeLeft(settings.overloadSeconds)) {

@@ -32,12 +32,14 @@ export async function findSaturation(
   settings: SearchSettings,
   limits: StepLimits,
   onStep: (step: StepResult) => void = () => undefined,
+  /** Asked before each step whether there is time for one more. */
+  mayStart: () => boolean = () => true,
 ): Promise<SearchOutcome> {
   const steps: StepResult[] = [];
   const passed: number[] = [];
   const failed: number[] = [];
   let fps = settings.startFps;
-  for (let i = 0; i < settings.maxSteps; i++) {
+  for (let i = 0; i < settings.maxSteps && mayStart(); i++) {
     const step = await runStep(session, { label: `search ${i + 1}`, offeredFps: fps, seconds: settings.stepSeconds, settleSeconds: settings.settleSeconds }, limits);
     steps.push(step);
     onStep(step);
