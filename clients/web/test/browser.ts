@@ -46,3 +46,22 @@ export function collectPageErrors(page: Page): string[] {
   });
   return errors;
 }
+
+/** Browser steps wait this long by default: CI machines can be slow and busy. */
+export const STEP_TIMEOUT_MS = 45_000;
+/** A whole browser test may take this long. */
+export const BROWSER_TEST_TIMEOUT_MS = 150_000;
+
+/**
+ * Runs a browser test body; when it fails, leaves a screenshot of the page as it was in
+ * artifacts/<name>-failure.png before passing the failure on.
+ */
+export async function withFailureShot(page: Page, name: string, body: () => Promise<void>): Promise<void> {
+  page.setDefaultTimeout(STEP_TIMEOUT_MS);
+  try {
+    await body();
+  } catch (err) {
+    await page.screenshot({ path: join(ARTIFACTS_DIR, `${name}-failure.png`) }).catch(() => undefined);
+    throw err;
+  }
+}

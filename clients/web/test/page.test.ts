@@ -18,7 +18,7 @@ import { decode, encode } from '../../../protocol/codec.js';
 import type { DaemonToSubscriber, StreamDeclaration } from '../../../protocol/messages.js';
 import { buildDashboard, WEB_DIR } from '../build.js';
 import { columnOfCell, type DelayDopplerGrid } from '../src/delay-doppler.js';
-import { ARTIFACTS_DIR, collectPageErrors, launchChromium, missingChromium } from './browser.js';
+import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, withFailureShot } from './browser.js';
 
 const TOKEN = 'watch-token-1';
 const GRID: DelayDopplerGrid = { delays: 16, dopplerFrom: -4, dopplerTo: 11 };
@@ -188,7 +188,7 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
       }
     }, 50);
     browser = await launchChromium();
-  });
+  }, BROWSER_TEST_TIMEOUT_MS);
 
   afterAll(async () => {
     clearInterval(pump);
@@ -205,84 +205,86 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
   it('lists the streams, draws the frame it names, shows alerts, falling behind, and a lost link', async () => {
     const page = await browser.newPage({ viewport: { width: 1500, height: 1000 } });
     const errors = collectPageErrors(page);
-    await page.goto(`${base}/?token=${TOKEN}#stream=${channel.name}`);
+    await withFailureShot(page, 'dashboard-scripted', async () => {
+      await page.goto(`${base}/?token=${TOKEN}#stream=${channel.name}`);
 
-    // The roster lists every declared stream, and results keep arriving.
-    await page.waitForSelector('body[data-link="live"]', { timeout: 15_000 });
-    await page.waitForFunction(() => document.querySelectorAll('#roster > li').length === 3);
-    const names = await page.$$eval('#roster > li', (lis) => lis.map((li) => li.dataset.stream));
-    expect(names).toEqual([tones.name, channel.name, telemetry.name]);
-    const countOf = () => page.$eval(`#roster > li[data-stream="${channel.name}"]`, (li) => Number(li.dataset.results));
-    const before = await countOf();
-    await page.waitForFunction((n) => Number(document.querySelector('#roster > li[data-stream="range-2.channel"]')?.getAttribute('data-results')) > n + 5, before);
-    expect(subscribeRequests[0]).toMatchObject({ when_behind: 'keep_latest', streams: '*' });
-    // The daemon's own figures reach the roster.
-    await page.waitForFunction(() => document.querySelector('#roster > li[data-stream="link-7.telemetry"] .roster-note')?.textContent === 'no producer connected');
-    const channelFigures = await page.$$eval('#roster > li[data-stream="range-2.channel"] dl div', (divs) =>
-      Object.fromEntries(divs.map((d) => [d.querySelector('dt')!.textContent, d.querySelector('dd')!.textContent])),
-    );
-    expect(channelFigures).toMatchObject({ drops: '3', alerts: '0', missed: '0' });
-    expect(channelFigures.rate).toMatch(/^\d+\.\d\/s$/);
+      // The roster lists every declared stream, and results keep arriving.
+      await page.waitForSelector('body[data-link="live"]');
+      await page.waitForFunction(() => document.querySelectorAll('#roster > li').length === 3);
+      const names = await page.$$eval('#roster > li', (lis) => lis.map((li) => li.dataset.stream));
+      expect(names).toEqual([tones.name, channel.name, telemetry.name]);
+      const countOf = () => page.$eval(`#roster > li[data-stream="${channel.name}"]`, (li) => Number(li.dataset.results));
+      const before = await countOf();
+      await page.waitForFunction((n) => Number(document.querySelector('#roster > li[data-stream="range-2.channel"]')?.getAttribute('data-results')) > n + 5, before);
+      expect(subscribeRequests[0]).toMatchObject({ when_behind: 'keep_latest', streams: '*' });
+      // The daemon's own figures reach the roster.
+      await page.waitForFunction(() => document.querySelector('#roster > li[data-stream="link-7.telemetry"] .roster-note')?.textContent === 'no producer connected');
+      const channelFigures = await page.$$eval('#roster > li[data-stream="range-2.channel"] dl div', (divs) =>
+        Object.fromEntries(divs.map((d) => [d.querySelector('dt')!.textContent, d.querySelector('dd')!.textContent])),
+      );
+      expect(channelFigures).toMatchObject({ drops: '3', alerts: '0', missed: '0' });
+      expect(channelFigures.rate).toMatch(/^\d+\.\d\/s$/);
 
-    // The heat map's strongest cell is the reflector of the very frame the map says it shows.
-    for (let check = 0; check < 5; check++) {
-      const shown = await page.$eval('#heat', (c) => ({ ...(c as HTMLCanvasElement).dataset }));
-      expect(shown.peakSeq).toBeDefined();
-      const expected = reflectorAt(Number(shown.peakSeq));
-      expect({ delay: Number(shown.peakDelay), doppler: Number(shown.peakDoppler) }).toEqual(expected);
-      await page.waitForTimeout(120);
-    }
-    // The drawn pixels agree: the ringed cell is the darkest on the map. Sample the canvas at the
-    // cell's centre and at another nonzero cell's centre.
-    const darkness = await page.$eval('#heat', (canvas) => {
-      const c = canvas as HTMLCanvasElement;
-      const ctx = c.getContext('2d')!;
-      const ratio = window.devicePixelRatio || 1;
-      const left = 44, top = 8, plotW = c.clientWidth - 44 - 8 - 46, plotH = c.clientHeight - 30 - 8; // heat-map.ts layout
-      const delay = Number(c.dataset.peakDelay), doppler = Number(c.dataset.peakDoppler);
-      const at = (k: number, l: number) => {
-        const x = (left + (k + 0.5) * (plotW / 16)) * ratio;
-        const y = (top + (16 - 1 - (l + 4) + 0.5) * (plotH / 16)) * ratio;
-        const [r, g, b] = ctx.getImageData(Math.round(x), Math.round(y), 1, 1).data;
-        return r! + g! + b!;
-      };
-      return { peak: at(delay, doppler), other: at(9, -2), empty: at(0, 0) };
+      // The heat map's strongest cell is the reflector of the very frame the map says it shows.
+      for (let check = 0; check < 5; check++) {
+        const shown = await page.$eval('#heat', (c) => ({ ...(c as HTMLCanvasElement).dataset }));
+        expect(shown.peakSeq).toBeDefined();
+        const expected = reflectorAt(Number(shown.peakSeq));
+        expect({ delay: Number(shown.peakDelay), doppler: Number(shown.peakDoppler) }).toEqual(expected);
+        await page.waitForTimeout(120);
+      }
+      // The drawn pixels agree: the ringed cell is the darkest on the map. Sample the canvas at the
+      // cell's centre and at another nonzero cell's centre.
+      const darkness = await page.$eval('#heat', (canvas) => {
+        const c = canvas as HTMLCanvasElement;
+        const ctx = c.getContext('2d')!;
+        const ratio = window.devicePixelRatio || 1;
+        const left = 44, top = 8, plotW = c.clientWidth - 44 - 8 - 46, plotH = c.clientHeight - 30 - 8; // heat-map.ts layout
+        const delay = Number(c.dataset.peakDelay), doppler = Number(c.dataset.peakDoppler);
+        const at = (k: number, l: number) => {
+          const x = (left + (k + 0.5) * (plotW / 16)) * ratio;
+          const y = (top + (16 - 1 - (l + 4) + 0.5) * (plotH / 16)) * ratio;
+          const [r, g, b] = ctx.getImageData(Math.round(x), Math.round(y), 1, 1).data;
+          return r! + g! + b!;
+        };
+        return { peak: at(delay, doppler), other: at(9, -2), empty: at(0, 0) };
+      });
+      expect(darkness.peak).toBeLessThan(darkness.other);
+      expect(darkness.other).toBeLessThan(darkness.empty);
+      await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-scripted-delay-doppler.png') });
+
+      // An alert raised on a frame shows in the ledger with that frame, and on the roster.
+      const raisedAt = ++tonesSeq;
+      broadcast(tonesResult(raisedAt, ['residual_high']));
+      broadcast({ v: 1, type: 'alert', stream: tones.name, seq: raisedAt, rule: 0, metric: 'relative_residual', state: 'raised', value: 0.31, limit: 0.2 });
+      await page.waitForSelector(`#ledger li[data-state="raised"][data-seq="${raisedAt}"][data-stream="${tones.name}"]`);
+      await page.waitForSelector(`#roster > li[data-stream="${tones.name}"][data-health="alerting"]`);
+
+      // The spectral stream's view: magnitude by frequency bin, and the waveform beside it.
+      await page.click(`#roster > li[data-stream="${tones.name}"]`);
+      await page.waitForFunction(() => document.getElementById('stage-title')?.textContent === 'stand-1.vibration');
+      expect(await page.$eval('#recovery-caption', (e) => e.textContent)).toMatch(/frequency/);
+      expect(await page.$eval('#recovery-side', (e) => (e as HTMLElement).hidden)).toBe(false);
+      await page.waitForFunction(() => /8 measured samples shown/.test(document.getElementById('recovery-readout')?.textContent ?? ''));
+      expect(subscribeRequests[0]).toMatchObject({ want: expect.arrayContaining(['coefficients', 'signal', 'measurements', 'alerts']) });
+      await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-scripted-spectrum.png') });
+
+      // A daemon that reports results passed over for this page: the badge says "behind".
+      broadcast({ v: 1, type: 'missed', stream: tones.name, from_seq: tonesSeq + 1, to_seq: tonesSeq + 40, count: 40, reason: 'subscriber_behind' });
+      tonesSeq += 40;
+      await page.waitForSelector('body[data-link="behind"]');
+
+      // The link drops: the page says so, then reconnects and subscribes again by itself.
+      const subscribedBefore = subscriptions;
+      for (const ws of subscribers) ws.terminate();
+      await page.waitForSelector('body[data-link="waiting"], body[data-link="connecting"]');
+      await page.waitForFunction(() => /disconnected|connecting/.test(document.getElementById('link-text')?.textContent ?? ''));
+      await page.waitForSelector('body[data-link="live"], body[data-link="behind"]');
+      expect(subscriptions).toBe(subscribedBefore + 1);
+
+      expect(await page.$eval('#footnote', (e) => e.textContent)).not.toMatch(/not understood/);
+      expect(errors).toEqual([]);
     });
-    expect(darkness.peak).toBeLessThan(darkness.other);
-    expect(darkness.other).toBeLessThan(darkness.empty);
-    await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-scripted-delay-doppler.png') });
-
-    // An alert raised on a frame shows in the ledger with that frame, and on the roster.
-    const raisedAt = ++tonesSeq;
-    broadcast(tonesResult(raisedAt, ['residual_high']));
-    broadcast({ v: 1, type: 'alert', stream: tones.name, seq: raisedAt, rule: 0, metric: 'relative_residual', state: 'raised', value: 0.31, limit: 0.2 });
-    await page.waitForSelector(`#ledger li[data-state="raised"][data-seq="${raisedAt}"][data-stream="${tones.name}"]`);
-    await page.waitForSelector(`#roster > li[data-stream="${tones.name}"][data-health="alerting"]`);
-
-    // The spectral stream's view: magnitude by frequency bin, and the waveform beside it.
-    await page.click(`#roster > li[data-stream="${tones.name}"]`);
-    await page.waitForFunction(() => document.getElementById('stage-title')?.textContent === 'stand-1.vibration');
-    expect(await page.$eval('#recovery-caption', (e) => e.textContent)).toMatch(/frequency/);
-    expect(await page.$eval('#recovery-side', (e) => (e as HTMLElement).hidden)).toBe(false);
-    await page.waitForFunction(() => /8 measured samples shown/.test(document.getElementById('recovery-readout')?.textContent ?? ''));
-    expect(subscribeRequests[0]).toMatchObject({ want: expect.arrayContaining(['coefficients', 'signal', 'measurements', 'alerts']) });
-    await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-scripted-spectrum.png') });
-
-    // A daemon that reports results passed over for this page: the badge says "behind".
-    broadcast({ v: 1, type: 'missed', stream: tones.name, from_seq: tonesSeq + 1, to_seq: tonesSeq + 40, count: 40, reason: 'subscriber_behind' });
-    tonesSeq += 40;
-    await page.waitForSelector('body[data-link="behind"]');
-
-    // The link drops: the page says so, then reconnects and subscribes again by itself.
-    const subscribedBefore = subscriptions;
-    for (const ws of subscribers) ws.terminate();
-    await page.waitForSelector('body[data-link="waiting"], body[data-link="connecting"]');
-    await page.waitForFunction(() => /disconnected|connecting/.test(document.getElementById('link-text')?.textContent ?? ''));
-    await page.waitForSelector('body[data-link="live"], body[data-link="behind"]', { timeout: 20_000 });
-    expect(subscriptions).toBe(subscribedBefore + 1);
-
-    expect(await page.$eval('#footnote', (e) => e.textContent)).not.toMatch(/not understood/);
-    expect(errors).toEqual([]);
     await page.close();
-  });
+  }, BROWSER_TEST_TIMEOUT_MS);
 });
