@@ -1,7 +1,18 @@
 import { ReconnectingConnection, type ConnectionOptions } from '../clients/connection.js';
-import { encode, type DaemonToProducer, type Message } from '../protocol/index.js';
+import { pack } from 'msgpackr';
+import type { DaemonToProducer, FrameMessage, Message } from '../protocol/index.js';
 import { FailureLog } from './failures.js';
 import type { LoadStream } from './scenarios.js';
+
+/**
+ * A frame message as the protocol's `encode` would pack it, without re-validating a message this
+ * module builds itself on the hot path (the daemon validates every frame it receives, and a test
+ * decodes these bytes with the protocol's codec).
+ */
+export function packFrame(stream: string, seq: number, time: number, y: Uint8Array): Uint8Array {
+  const msg: FrameMessage = { v: 1, type: 'frame', stream, seq, time, y };
+  return pack(msg);
+}
 
 /** Frame counts from the producers' side, cumulative since the connections opened. */
 export interface ProducerCounts {
@@ -82,14 +93,7 @@ export class LoadProducers {
     }
     const seq = this.#nextSeq[stream.index]!;
     this.#nextSeq[stream.index] = seq + 1;
-    const bytes = encode({
-      v: 1,
-      type: 'frame',
-      stream: stream.declaration.name,
-      seq,
-      time: performance.timeOrigin + scheduledAt,
-      y: wireFrames[seq % wireFrames.length]!,
-    });
+    const bytes = packFrame(stream.declaration.name, seq, performance.timeOrigin + scheduledAt, wireFrames[seq % wireFrames.length]!);
     this.counts.sent++;
     connection.sendBytes(bytes).catch((err: Error) => this.#fail(`write failed: ${err.message}`));
   }

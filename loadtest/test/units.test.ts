@@ -1,9 +1,10 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { streamNameProblem } from '../../protocol/index.js';
+import { binToFloat64, decode, encode, float64ToBin, streamNameProblem } from '../../protocol/index.js';
 import { mixtureMedian, quantile } from '../bareSolve.js';
 import { countersFromText, sumSamples } from '../daemonCounters.js';
 import { LatencyRecorder } from '../latency.js';
+import { packFrame } from '../loadProducers.js';
 import { cpuSecondsFromStat, kilobytesField, sampleProcess } from '../procStats.js';
 import { buildScenario, frameShares, perStreamRates, SCENARIO_NAMES, type Scenario } from '../scenarios.js';
 import { bracket, nextLoad } from '../search.js';
@@ -27,6 +28,19 @@ describe('latency recorder (HdrHistogram)', () => {
 
   it('reports zeros when nothing was recorded', () => {
     expect(new LatencyRecorder().summary()).toEqual({ count: 0, mean: 0, p50: 0, p90: 0, p99: 0, p999: 0, max: 0 });
+  });
+});
+
+describe('frames packed by the generator', () => {
+  it("are the bytes the protocol's encoder makes, and decode (with validation) to the frame sent", () => {
+    // The protocol's own codec is the reference: same MessagePack map, validated by its schema.
+    const y = new Float64Array([1.5, -2.25, 0, 3e-300, -0, 7]);
+    const time = performance.timeOrigin + 1234.5678;
+    const bytes = packFrame('lt.small.007', 41, time, float64ToBin(y));
+    expect(Buffer.from(bytes).equals(Buffer.from(encode({ v: 1, type: 'frame', stream: 'lt.small.007', seq: 41, time, y: float64ToBin(y) })))).toBe(true);
+    const msg = decode(bytes);
+    expect(msg).toMatchObject({ v: 1, type: 'frame', stream: 'lt.small.007', seq: 41, time });
+    expect(Array.from(binToFloat64((msg as { y: Uint8Array }).y, 'y'))).toEqual(Array.from(y));
   });
 });
 
