@@ -61,6 +61,20 @@ export abstract class Connection {
   }
 
   private receive(data: RawData, isBinary: boolean): void {
+    // Nothing a peer sends may take the daemon down: every path ends in a reply or a log line.
+    try {
+      this.dispatch(data, isBinary);
+    } catch (err) {
+      this.log.error({ err }, 'failed to process a message');
+      try {
+        this.sendError('internal', 'the daemon failed to process this message (logged)');
+      } catch {
+        // The connection is unusable; the peer will notice it closing or timing out.
+      }
+    }
+  }
+
+  private dispatch(data: RawData, isBinary: boolean): void {
     if (!isBinary) {
       this.sendError('malformed', 'messages must be binary MessagePack; text frames are not accepted');
       return;
@@ -70,12 +84,13 @@ export abstract class Connection {
     try {
       msg = decode(bytes);
     } catch (err) {
-      if (err instanceof ProtocolError) return this.rejected(err, bytes);
-      throw err;
+      const problem = err instanceof ProtocolError ? err : new ProtocolError('malformed', `could not decode: ${(err as Error).message}`);
+      return this.rejected(problem, bytes);
     }
     const ref = 'ref' in msg ? msg.ref : undefined;
     const stream = 'stream' in msg && typeof msg.stream === 'string' ? msg.stream : undefined;
     const fail = (err: unknown) => {
+      if (this.ws.readyState !== this.ws.OPEN) return;
       if (err instanceof RequestError) {
         this.sendError(err.code, err.message, { ...(ref ? { ref } : {}), ...(stream ? { stream } : {}), ...(err.field ? { field: err.field } : {}) });
       } else {
@@ -85,7 +100,15 @@ export abstract class Connection {
     };
     try {
       const done = this.handle(msg);
-      if (done instanceof Promise) done.catch(fail);
+      if (done instanceof Promise) {
+        done.catch((err: unknown) => {
+          try {
+            fail(err);
+          } catch (inner) {
+            this.log.error({ err: inner }, 'could not report a failed message');
+          }
+        });
+      }
     } catch (err) {
       fail(err);
     }
