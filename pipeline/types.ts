@@ -77,8 +77,8 @@ export type RefusalReason =
 
 /**
  * Why an accepted frame was dropped without a result (subscribers get a `missed` notice with
- * this reason): displaced by the queue policy (drop_oldest, keep_latest), its solve failed (e.g.
- * its worker died), or the daemon stopped before it could be solved.
+ * this reason): displaced by the queue policy (drop_oldest, keep_latest), its solve failed (the
+ * solver threw, or two workers died on it), or the daemon stopped before it could be solved.
  */
 export type DropReason = 'dropped_by_queue' | 'solver_failed' | 'shutdown';
 
