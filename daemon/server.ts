@@ -39,7 +39,8 @@ export class DaemonServer {
     this.core = new DaemonCore(config, this.log);
     const handler = (req: http.IncomingMessage, res: http.ServerResponse) => {
       this.handleHttp(req, res).catch((err: Error) => {
-        this.log.error({ err: err.message, url: req.url }, 'HTTP request failed');
+        // The path only: the query may carry ?token=.
+        this.log.error({ err: err.message, path: (req.url ?? '').split('?')[0] }, 'HTTP request failed');
         if (!res.headersSent) json(res, 500, { error: 'internal', detail: 'the daemon failed to answer (logged)' });
         else res.destroy();
       });
@@ -104,7 +105,8 @@ export class DaemonServer {
 
   private upgrade(req: http.IncomingMessage, socket: Duplex, head: Buffer): void {
     socket.on('error', () => socket.destroy());
-    const url = new URL(req.url ?? '/', 'http://localhost');
+    const url = requestUrl(req);
+    if (url === undefined) return this.refuse(socket, 400, 'bad_request', BAD_TARGET);
     const endpoint: Endpoint | undefined = url.pathname === '/v1/produce' ? 'produce' : url.pathname === '/v1/watch' ? 'watch' : undefined;
     if (endpoint === undefined) return this.refuse(socket, 404, 'unknown_path', `no WebSocket endpoint at ${url.pathname}; producers use /v1/produce, subscribers /v1/watch`);
     if (this.closing) return this.refuse(socket, 503, 'shutting_down', 'the daemon is shutting down');
@@ -174,7 +176,8 @@ export class DaemonServer {
   }
 
   private async handleHttp(req: http.IncomingMessage, res: http.ServerResponse): Promise<void> {
-    const url = new URL(req.url ?? '/', 'http://localhost');
+    const url = requestUrl(req);
+    if (url === undefined) return json(res, 400, { error: 'bad_request', detail: BAD_TARGET });
     if (req.method !== 'GET' && req.method !== 'HEAD') {
       res.setHeader('Allow', 'GET, HEAD');
       return json(res, 405, { error: 'method_not_allowed', detail: 'only GET and HEAD are served' });
@@ -217,6 +220,17 @@ export class DaemonServer {
       return undefined;
     }
     return auth.principal;
+  }
+}
+
+const BAD_TARGET = 'the request target is not a valid URL path';
+
+/** The request's URL, or undefined when its target does not parse (e.g. `//host:99999/`). */
+function requestUrl(req: http.IncomingMessage): URL | undefined {
+  try {
+    return new URL(req.url ?? '/', 'http://localhost');
+  } catch {
+    return undefined;
   }
 }
 
