@@ -3,6 +3,7 @@ import path from 'node:path';
 import type { BehindPolicy } from '../protocol/index.js';
 import { REPORT_FILES, writeReport } from '../loadtest/report.js';
 import { runLoad, type LoadSettings } from '../loadtest/runLoad.js';
+import { FEED_KINDS, type FeedKind } from '../clients/feeds/index.js';
 import { SCENARIO_NAMES, type ScenarioName } from '../loadtest/scenarios.js';
 import { flag, helpText, list, num, parseCommandLine, str, UsageError, type CommandSpec, type OptionValues } from './args.js';
 import { EXIT } from './exitCodes.js';
@@ -21,7 +22,8 @@ export const loadSpec: CommandSpec = {
     'step is bounded in time and the whole run stops by itself (--max-seconds).',
     '',
     'Scenarios: small (1000 streams of n = 512), large-dft (4 streams of n = 8192), large-gabor',
-    '(4 streams on the full 128 × 128 Gabor grid), mixed (all kinds at once).',
+    '(4 streams on the full 128 × 128 Gabor grid), mixed (all kinds at once); or one feed with',
+    'chosen sizes: --feed gearbox --n 2048 --m 256 --streams 50.',
     '--quick runs small with short steps in under two minutes; without it every scenario runs with',
     'longer steps (about 10–15 minutes). --json prints {"suite":"loadtest","figures":{...}} last.',
   ].join('\n'),
@@ -30,8 +32,12 @@ export const loadSpec: CommandSpec = {
     { name: 'json', kind: 'flag', help: 'Print the figures as one JSON line at the very end.' },
     { name: 'out', kind: 'string', value: '<dir>', help: 'Folder for the report (default: a new folder in the system temp dir).' },
     { name: 'scenario', kind: 'string', value: '<name>', multiple: true, choices: SCENARIO_NAMES, help: 'Run only these scenarios (repeat the flag for several).' },
-    { name: 'streams', kind: 'int', value: '<n>', min: 1, help: 'Streams of the small scenario (default 1000).' },
+    { name: 'streams', kind: 'int', value: '<n>', min: 1, help: 'Streams of the small scenario (default 1000), or of the --feed scenario (default 100).' },
+    { name: 'feed', kind: 'string', value: '<kind>', choices: FEED_KINDS, help: 'Run a scenario of this feed with chosen sizes (--n, --m) and --streams streams (default 100).' },
+    { name: 'n', kind: 'int', value: '<n>', min: 2, help: 'Signal length of the --feed streams (range: the full n × n delay-Doppler grid).' },
+    { name: 'm', kind: 'int', value: '<m>', min: 1, help: 'Measurements per frame of the --feed streams (gearbox time samples, telemetry projections).' },
     { name: 'rate', kind: 'string', value: '<frames/s>', multiple: true, help: 'Run these total loads instead of searching for saturation (repeatable).' },
+    { name: 'stream-rate', kind: 'string', value: '<frames/s>', multiple: true, help: 'The same, given as the rate of each stream (repeatable).' },
     { name: 'target', kind: 'string', value: '<url>', help: 'Load this running daemon instead of starting one (its CPU and memory are then not measured).' },
     { name: 'target-pid', kind: 'int', value: '<pid>', min: 1, help: "The --target daemon's process id when it runs on this machine: measure its CPU and memory." },
     { name: 'token', kind: 'string', value: '<token>', env: 'SPARSEWIRE_TOKEN', help: 'Access token for --target (needs the produce and watch roles).' },
@@ -53,11 +59,13 @@ const SLOW_POLICY_ORDER: BehindPolicy[] = ['keep_latest', 'drop_with_notice', 'd
 export function loadSettings(values: OptionValues, log: (line: string) => void): { settings: LoadSettings; outDir: string; json: boolean } {
   const quick = flag(values, 'quick');
   const scenarios = list(values, 'scenario') as ScenarioName[];
-  const rates = list(values, 'rate').map((r) => {
-    const fps = Number(r);
-    if (!Number.isFinite(fps) || fps <= 0) throw new UsageError(`--rate must be a positive number of frames per second, got "${r}"`);
-    return fps;
-  });
+  const rates = positiveNumbers(values, 'rate');
+  const streamRates = positiveNumbers(values, 'stream-rate');
+  if (rates.length > 0 && streamRates.length > 0) throw new UsageError('give --rate or --stream-rate, not both');
+  const feed = str(values, 'feed') as FeedKind | undefined;
+  for (const size of ['n', 'm']) {
+    if (num(values, size) !== undefined && feed === undefined) throw new UsageError(`--${size} goes with --feed`);
+  }
   const target = str(values, 'target');
   if (target !== undefined) {
     try {
@@ -73,8 +81,11 @@ export function loadSettings(values: OptionValues, log: (line: string) => void):
   const stepSeconds = num(values, 'step-seconds') ?? (quick ? 3 : 8);
   const settings: LoadSettings = {
     mode: quick ? 'quick' : 'full',
-    scenarios: scenarios.length > 0 ? scenarios : quick ? ['small'] : [...SCENARIO_NAMES],
+    scenarios: feed !== undefined ? [...scenarios, 'custom'] : scenarios.length > 0 ? scenarios : quick ? ['small'] : [...SCENARIO_NAMES],
     smallStreams: num(values, 'streams') ?? 1000,
+    ...(feed !== undefined
+      ? { custom: { feed, streams: num(values, 'streams') ?? 100, ...(num(values, 'n') !== undefined ? { n: num(values, 'n')! } : {}), ...(num(values, 'm') !== undefined ? { m: num(values, 'm')! } : {}) } }
+      : {}),
     target: target === undefined ? null : { url: target, ...(token ? { token } : {}), ...(targetPid ? { pid: targetPid } : {}) },
     ...(num(values, 'workers') !== undefined ? { workers: num(values, 'workers')! } : {}),
     streamsPerConnection: num(values, 'streams-per-connection') ?? 250,
@@ -90,13 +101,21 @@ export function loadSettings(values: OptionValues, log: (line: string) => void):
     holdSeconds: num(values, 'hold-seconds') ?? (quick ? 8 : 20),
     overloadFactor: 1.5,
     overloadSeconds: quick ? 3 : 8,
-    fixedRates: rates.length > 0 ? rates : null,
+    fixedRates: rates.length > 0 ? { values: rates, perStream: false } : streamRates.length > 0 ? { values: streamRates, perStream: true } : null,
     deadlineSeconds: num(values, 'max-seconds') ?? (quick ? 95 : 900),
     log,
   };
   const stamp = new Date().toISOString().replace(/[:.]/g, '-');
   const outDir = path.resolve(str(values, 'out') ?? path.join(os.tmpdir(), `sparsewire-load-${stamp}`));
   return { settings, outDir, json: flag(values, 'json') };
+}
+
+function positiveNumbers(values: OptionValues, name: string): number[] {
+  return list(values, name).map((text) => {
+    const v = Number(text);
+    if (text.trim() === '' || !Number.isFinite(v) || v <= 0) throw new UsageError(`--${name} must be a positive number of frames per second, got "${text}"`);
+    return v;
+  });
 }
 
 /** `sparsewire load`: resolves with the exit code (1 when a frame went unaccounted or a scenario broke). */

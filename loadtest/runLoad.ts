@@ -8,14 +8,25 @@ import { closeSession, openSession } from './loadSession.js';
 import { runStep, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
 import { describeMachine, finishMachine, type MachineDescription } from './machine.js';
 import { canSampleProcesses } from './procStats.js';
-import { buildScenario, frameShares, prepareScenario, type PreparedScenario, type ScenarioName } from './scenarios.js';
+import {
+  buildCustomScenario,
+  buildScenario,
+  frameShares,
+  prepareScenario,
+  totalForStreamRate,
+  type CustomScenario,
+  type PreparedScenario,
+  type ScenarioName,
+} from './scenarios.js';
 import { findSaturation, type SearchSettings } from './search.js';
 
 /** Everything a load run needs to know (the CLI fills it from flags and presets). */
 export interface LoadSettings {
   mode: 'quick' | 'full';
-  scenarios: ScenarioName[];
+  /** Scenarios in the order they run; 'custom' is the one described by `custom`. */
+  scenarios: Array<ScenarioName | 'custom'>;
   smallStreams: number;
+  custom?: CustomScenario;
   /** An existing daemon to load instead of starting one (pid: sample it when it runs here). */
   target: { url: string; token?: string; pid?: number } | null;
   /** Worker threads of the daemon we start (default: its own default, one per core). */
@@ -32,8 +43,8 @@ export interface LoadSettings {
   overloadFactor: number;
   /** ...for this long. */
   overloadSeconds: number;
-  /** Run these loads (frames/s) instead of searching for saturation. */
-  fixedRates: number[] | null;
+  /** Run these loads instead of searching for saturation: total frames/s, or per stream. */
+  fixedRates: { values: number[]; perStream: boolean } | null;
   /** The whole run stops starting new steps past this. */
   deadlineSeconds: number;
   signal?: AbortSignal;
@@ -68,7 +79,7 @@ export interface ScenarioAccounting {
 }
 
 export interface ScenarioReport {
-  name: ScenarioName;
+  name: ScenarioName | 'custom';
   summary: string;
   groups: GroupReport[];
   /** Median solve time of a frame drawn from the scenario's traffic, solved bare in-process. */
@@ -145,6 +156,7 @@ function settingsForReport(s: LoadSettings): Record<string, unknown> {
   return {
     scenarios: s.scenarios,
     small_streams: s.smallStreams,
+    custom: s.custom ?? null,
     target: s.target ? s.target.url : null,
     workers: s.workers ?? null,
     streams_per_connection: s.streamsPerConnection,
@@ -163,9 +175,11 @@ function settingsForReport(s: LoadSettings): Record<string, unknown> {
   };
 }
 
-async function runScenario(name: ScenarioName, prefix: string, settings: LoadSettings, deadline: number): Promise<ScenarioReport> {
+async function runScenario(name: ScenarioName | 'custom', prefix: string, settings: LoadSettings, deadline: number): Promise<ScenarioReport> {
   const log = settings.log;
-  const prepared = prepareScenario(buildScenario(name, { smallStreams: settings.smallStreams }), `${prefix}.${name}`);
+  if (name === 'custom' && !settings.custom) throw new Error('the custom scenario needs its feed and sizes');
+  const scenario = name === 'custom' ? buildCustomScenario(settings.custom!) : buildScenario(name, { smallStreams: settings.smallStreams });
+  const prepared = prepareScenario(scenario, `${prefix}.${name}`);
   log(`${name}: ${prepared.scenario.summary}`);
   const shares = frameShares(prepared.scenario);
   const bare = prepared.groups.map((g) => measureBareSolve(g));
@@ -265,8 +279,10 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
   stepLog(report.warmup);
 
   if (settings.fixedRates) {
-    for (const [i, fps] of settings.fixedRates.entries()) {
+    const { values, perStream } = settings.fixedRates;
+    for (const [i, rate] of values.entries()) {
       if (!timeLeft(settings.search.stepSeconds)) break;
+      const fps = perStream ? totalForStreamRate(session.prepared.scenario, rate) : rate;
       const step = await runStep(session, { label: `load ${i + 1}`, offeredFps: fps, seconds: settings.search.stepSeconds, settleSeconds: settings.search.settleSeconds }, limits);
       report.steps.push(step);
       stepLog(step);

@@ -1,4 +1,4 @@
-import { GearboxFeed, RangeFeed, TelemetryFeed, type Feed } from '../clients/feeds/index.js';
+import { GearboxFeed, RangeFeed, TelemetryFeed, type Feed, type FeedKind } from '../clients/feeds/index.js';
 import { float64ToBin, type StreamDeclaration } from '../protocol/index.js';
 
 /**
@@ -19,7 +19,7 @@ export interface GroupSpec {
 }
 
 export interface Scenario {
-  name: ScenarioName;
+  name: ScenarioName | 'custom';
   summary: string;
   groups: GroupSpec[];
 }
@@ -61,6 +61,42 @@ const GROUPS = {
 export interface ScenarioSizes {
   /** Streams of the many-small-streams scenario (default 1000). */
   smallStreams?: number;
+}
+
+/** A scenario of one feed kind with chosen sizes: `n` (signal length) and `m` (measurements) where the feed has them. */
+export interface CustomScenario {
+  feed: FeedKind;
+  streams: number;
+  n?: number;
+  m?: number;
+}
+
+/** A feed of the chosen kind and sizes; the range feed gets the full n × n delay-Doppler grid when n is chosen. */
+export function customFeed(c: CustomScenario): Feed {
+  switch (c.feed) {
+    case 'gearbox':
+      return new GearboxFeed({ ...(c.n !== undefined ? { n: c.n } : {}), ...(c.m !== undefined ? { m: c.m } : {}) });
+    case 'range':
+      return new RangeFeed(c.n !== undefined ? { n: c.n, delays: c.n, dopplerFrom: -Math.floor(c.n / 2), dopplerTo: Math.ceil(c.n / 2) - 1 } : {});
+    case 'telemetry':
+      return new TelemetryFeed({ ...(c.n !== undefined ? { n: c.n } : {}), ...(c.m !== undefined ? { rows: c.m } : {}) });
+  }
+}
+
+/** The custom scenario; builds one feed to describe it (and to fail early on sizes the feed rejects). */
+export function buildCustomScenario(c: CustomScenario): Scenario {
+  const sample = customFeed(c);
+  const d = sample.declaration;
+  const solver = d.solver as { method: string };
+  const queue = d.queue ?? { capacity: 32, policy: 'refuse_new' };
+  const group: GroupSpec = {
+    label: c.feed,
+    description: `${c.feed} feed, ${(d.operator as { kind: string }).kind} operator, ${sample.operator.rows} measurements of ${sample.operator.cols} unknowns, ${solver.method}, queue ${queue.capacity} ${queue.policy}`,
+    count: c.streams,
+    relativeRate: 1,
+    feed: () => customFeed(c),
+  };
+  return { name: 'custom', summary: `${c.streams} streams: ${group.description}`, groups: [group] };
 }
 
 export function buildScenario(name: ScenarioName, sizes: ScenarioSizes = {}): Scenario {
@@ -126,6 +162,11 @@ export function prepareScenario(scenario: Scenario, prefix: string): PreparedSce
     }
   });
   return { scenario, groups, streams, prefix };
+}
+
+/** The total load at which a stream of relative rate 1 sends `fps` frames per second. */
+export function totalForStreamRate(scenario: Scenario, fps: number): number {
+  return fps * scenario.groups.reduce((sum, g) => sum + g.count * g.relativeRate, 0);
 }
 
 /** Per-stream rate of each group when the scenario runs at `totalFps` frames per second. */

@@ -86,7 +86,7 @@ describe('a whole run at a tiny fixed load', () => {
       holdSeconds: 1,
       overloadFactor: 1.5,
       overloadSeconds: 1,
-      fixedRates: [15, 30],
+      fixedRates: { values: [15, 30], perStream: false },
       deadlineSeconds: 60,
       log: () => undefined,
     });
