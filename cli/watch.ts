@@ -52,6 +52,7 @@ export async function watchCommand(values: OptionValues): Promise<number> {
       else out(noticeLine(msg));
     });
   }
+  subscriber.on('garbled', (err) => process.stderr.write(`unreadable message from the daemon skipped: ${err.message}\n`));
   subscriber.on('disconnected', (info) => {
     if (info.retryInMs !== null && !json) process.stderr.write(`connection lost; reconnecting in ${Math.round(info.retryInMs)} ms\n`);
   });

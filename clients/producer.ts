@@ -6,6 +6,7 @@ import {
   type DeclaredMessage,
   type ErrorMessage,
   type Message,
+  type ProtocolError,
   type RefusedMessage,
   type StreamDeclaration,
 } from '../protocol/index.js';
@@ -39,6 +40,8 @@ export type ProducerEvents = {
   refused: [msg: RefusedMessage, willResend: boolean];
   /** An error the daemon reported that no request of ours was waiting for. */
   daemonError: [msg: ErrorMessage];
+  /** A message from the daemon that did not decode (skipped; the connection stays up). */
+  garbled: [err: ProtocolError];
 };
 
 interface OutgoingFrame {
@@ -91,6 +94,7 @@ export class Producer extends TypedEmitter<ProducerEvents> {
       this.emit('disconnected', info);
     });
     this.#connection.on('message', (msg) => this.#dispatch(msg as DaemonToProducer));
+    this.#connection.on('garbled', (err) => this.emit('garbled', err));
   }
 
   get connected(): boolean {

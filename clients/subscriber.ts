@@ -8,6 +8,7 @@ import {
   type Evidence,
   type Message,
   type MissedMessage,
+  type ProtocolError,
   type ResultMessage,
   type SparseVector,
   type StreamDeclaration,
@@ -61,6 +62,8 @@ export type SubscriberEvents = {
   missed: [msg: MissedMessage];
   streamEvent: [msg: StreamEventMessage];
   daemonError: [msg: ErrorMessage];
+  /** A message from the daemon that did not decode (skipped; the connection stays up). */
+  garbled: [err: ProtocolError];
 };
 
 /** Decodes the binary payloads of a result message (copies them out of the socket buffer). */
@@ -128,6 +131,7 @@ export class Subscriber extends TypedEmitter<SubscriberEvents> {
       this.emit('disconnected', info);
     });
     this.#connection.on('message', (msg) => this.#dispatch(msg as DaemonToSubscriber));
+    this.#connection.on('garbled', (err) => this.emit('garbled', err));
   }
 
   get connected(): boolean {

@@ -130,8 +130,10 @@ export const REFUSAL_REASONS = [
   'out_of_order',
   'wrong_length',
   'not_finite',
+  'bad_sigma',
   'unknown_stream',
   'forbidden',
+  'stream_closing',
   'shutting_down',
 ] as const;
 export type RefusalReason = (typeof REFUSAL_REASONS)[number];
