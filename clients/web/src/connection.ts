@@ -117,7 +117,7 @@ export class WatchLink {
     socket.onclose = (ev) => {
       if (this.socket !== socket) return;
       this.socket = null;
-      if (!this.stopped) this.scheduleRetry(ev.reason || `closed (code ${ev.code})`);
+      if (!this.stopped) this.scheduleRetry(closeReason(ev));
     };
   }
 
@@ -147,6 +147,16 @@ export class WatchLink {
     }
     return message as DaemonToSubscriber;
   }
+}
+
+/**
+ * Why the socket closed, in plain words. A browser reports a failed or refused connection
+ * (including an HTTP 401 to the upgrade: it does not let pages see the status) as code 1006
+ * with no reason.
+ */
+function closeReason(ev: { code: number; reason: string }): string {
+  if (ev.reason) return ev.reason;
+  return ev.code === 1006 ? 'connection failed or refused' : `closed with code ${ev.code}`;
 }
 
 const SUBSCRIBER_TYPES: ReadonlySet<string> = new Set<DaemonToSubscriber['type']>([

@@ -82,6 +82,7 @@ const stageTitle = byId('stage-title');
 const stageAbout = byId('stage-about');
 const stageFlags = byId('stage-flags');
 const footnote = byId('footnote');
+const stagePanels = [byId('recovery'), byId('trends')];
 
 function chosenFromHash(): string | null {
   const name = new URLSearchParams(location.hash.slice(1)).get('stream');
@@ -124,6 +125,7 @@ function frame(): void {
 
 function drawStage(stream: StreamState): void {
   if (stream !== stageStream || stream.shape !== stageShape) {
+    for (const panel of stagePanels) panel.hidden = false;
     stageStream = stream;
     stageShape = stream.shape;
     stageVersion = -1;

@@ -34,7 +34,7 @@ export class LinkView {
       case 'waiting': {
         badge = 'waiting';
         const seconds = Math.max(0, Math.ceil((state.retryAt - now) / 1000));
-        text = `disconnected (${state.reason}) · retrying in ${seconds} s`;
+        text = `disconnected (${state.reason}) · retry ${state.attempt + 1} in ${seconds} s`;
         break;
       }
       case 'stopped':
