@@ -141,6 +141,18 @@ function scenarioMarkdown(s: ScenarioReport): string {
       '',
     );
   }
+  if (s.slow_subscribers.length > 0) {
+    out.push(
+      `Each slow subscriber over the whole scenario (after up to 10 s to catch up): of the ${s.slow_subscribers[0]!.accepted} frames the daemon accepted, ` +
+        'how many arrived as results and how many were announced as missed:',
+      '',
+      markdownTable(
+        ['slow subscriber', 'results', 'missed while behind', 'dropped upstream', 'all accounted for', 'closed by the daemon'],
+        s.slow_subscribers.map((x, i) => [`${i + 1} (${x.policy})`, x.results, x.missed_behind, x.missed_dropped, x.accounted ? 'yes' : 'no', x.closed_by_daemon ?? 'no']),
+      ),
+      '',
+    );
+  }
   if (s.problems.length > 0) out.push('Problems:', '', ...s.problems.map((p) => `- ${p}`), '');
   return out.join('\n');
 }

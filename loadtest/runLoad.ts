@@ -78,6 +78,21 @@ export interface ScenarioAccounting {
   ok: boolean;
 }
 
+/**
+ * What a slow subscriber got over a scenario. Every accepted frame should reach it as a result or
+ * inside a `missed` notice once it has caught up (`accounted`), unless the daemon closed it.
+ */
+export interface SlowSubscriberTotals {
+  policy: string;
+  results: number;
+  missed_behind: number;
+  missed_dropped: number;
+  /** Frames the daemon accepted (solved + dropped) during the scenario. */
+  accepted: number;
+  accounted: boolean;
+  closed_by_daemon: string | null;
+}
+
 export interface ScenarioReport {
   name: ScenarioName | 'custom';
   summary: string;
@@ -98,6 +113,8 @@ export interface ScenarioReport {
   /** Highest resident memory of the daemon during the scenario (VmHWM), MiB. */
   daemon_peak_rss_mb: number | null;
   accounting: ScenarioAccounting;
+  /** Each slow subscriber over the whole scenario, after a bounded wait for it to catch up. */
+  slow_subscribers: SlowSubscriberTotals[];
   problems: string[];
 }
 
@@ -207,6 +224,7 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     p99_over_median_solve_at_70pct: null,
     daemon_peak_rss_mb: null,
     accounting: { sent: 0, solved: 0, refused: 0, dropped: 0, unaccounted: 0, acked_unaccounted: 0, daemon_counters: null, daemon_counter_mismatch: 0, ok: true },
+    slow_subscribers: [],
     problems,
   };
   let session: LoadSession | null = null;
@@ -234,6 +252,7 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     if (!report.accounting.ok) problems.push('accounting failed: see the accounting table');
     const usage = session.daemonSampler?.window();
     report.daemon_peak_rss_mb = usage?.peakRssMb ?? null;
+    report.slow_subscribers = await slowTotals(session, report.accounting.solved + report.accounting.dropped, SLOW_CATCH_UP_MS);
   } catch (err) {
     problems.push((err as Error).message);
     report.accounting.ok = false;
@@ -245,6 +264,26 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     }
   }
   return report;
+}
+
+/** Longest wait at the end of a scenario for the slow subscribers to catch up. */
+const SLOW_CATCH_UP_MS = 10_000;
+
+async function slowTotals(session: LoadSession, accepted: number, waitMs: number): Promise<SlowSubscriberTotals[]> {
+  const seen = (x: LoadSession['slow'][number]) => x.counts.results + x.counts.missedBehind + x.counts.missedDropped;
+  const deadline = performance.now() + waitMs;
+  while (performance.now() < deadline && session.slow.some((x) => x.closedByDaemon === null && seen(x) < accepted)) {
+    await new Promise((r) => setTimeout(r, 50));
+  }
+  return session.slow.map((x) => ({
+    policy: x.policy,
+    results: x.counts.results,
+    missed_behind: x.counts.missedBehind,
+    missed_dropped: x.counts.missedDropped,
+    accepted,
+    accounted: seen(x) === accepted,
+    closed_by_daemon: x.closedByDaemon ? `${x.closedByDaemon.code} ${x.closedByDaemon.reason}` : null,
+  }));
 }
 
 function groupReports(prepared: PreparedScenario, bare: BareSolve[], shares: number[]): GroupReport[] {

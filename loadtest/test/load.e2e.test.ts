@@ -107,6 +107,10 @@ describe('a whole run at a tiny fixed load', () => {
     expect(report.accounting_ok).toBe(true);
     expect(report.figures.unaccounted_frames).toBe(0);
     expect(report.figures.rss_mb_3_streams).toBeGreaterThan(0);
+    // The slow subscriber, once caught up, has every accepted frame as a result or inside a notice.
+    const [slow] = scenario!.slow_subscribers;
+    expect(slow).toMatchObject({ policy: 'keep_latest', accepted: a.solved + a.dropped, accounted: true, closed_by_daemon: null });
+    expect(slow!.results + slow!.missed_behind + slow!.missed_dropped).toBe(slow!.accepted);
   });
 
   it('writes the JSON, Markdown and SVG report', () => {
