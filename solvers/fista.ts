@@ -1,5 +1,8 @@
 import type { LinearOperator } from '../operators/types.js';
 import { weightedL1Norm, weightedMaxModulus } from './complex.js';
+import { restrictedNormalCg } from './refit.js';
+import { DENSE_SUPPORT_LIMIT, gramFor, newtonOnGram } from './supportNewton.js';
+import type { SupportGram } from './types.js';
 import type { Workspace } from './workspace.js';
 
 /**
@@ -12,6 +15,21 @@ import type { Workspace } from './workspace.js';
  * A to the extrapolated point z_k we apply it to x_k and obtain A z_k and Aᴴ(A z_k − y) by
  * linearity from the two latest iterates. So each iteration costs one apply and one adjoint,
  * and the certificate belongs to the very iterate that is returned.
+ *
+ * Finish on the support: once the support of the iterates has stood still for a few
+ * iterations (and at once for a warm start, whose support comes from the previous frame), the
+ * LASSO optimality condition restricted to that support S,
+ *   F(x_S) = A_Sᴴ(A_S x_S − y) + λ w_S ∘ x_S/|x_S| = 0,
+ * is solved by Newton's method: each step solves (A_SᴴA_S + B) δ = −F, where B, the derivative of
+ * x ↦ λ w x/|x|, is λ w/|x_j| times the projection orthogonal to x_j's phase (a 2×2 block per
+ * complex entry; no change for real entries). Up to 64 columns the steps run on the Gram matrix
+ * A_SᴴA_S alone (supportNewton.ts) until F vanishes to rounding; the Gram matrix is built from k
+ * applies and carried to the next frame. Beyond 64 columns, or if the dense matrix is singular,
+ * each step is a CG solve through the operator, at most three. The result is kept only if it
+ * lowers the LASSO objective, and its duality gap is evaluated like any iterate's; FISTA then
+ * continues from it with fresh momentum. Counted as iterations: each evaluation and each CG
+ * step (one apply and one adjoint each), and half an iteration per apply spent on a Gram matrix
+ * (rounded up).
  */
 
 export interface FistaOptions {
@@ -23,6 +41,10 @@ export interface FistaOptions {
   /** Stop when ‖x_k − x_{k−1}‖ ≤ stepTolerance · ‖x_k‖. */
   stepTolerance: number;
   restart: boolean;
+  /** Try the finish on the support described above. */
+  finish: boolean;
+  /** A Gram matrix from the previous frame (used when the support matches). */
+  gram?: SupportGram | undefined;
 }
 
 export interface FistaOutcome {
@@ -30,7 +52,23 @@ export interface FistaOutcome {
   /** Relative duality gap (P − D)/P at the returned x (0 when P = 0). */
   relGap: number;
   stoppedBy: 'gap' | 'step' | 'cap';
+  /** Iterations spent in finishes on the support (included in `iterations`). */
+  finishIterations: number;
+  /** The Gram matrix the last dense finish used (to carry to the next frame). */
+  gram: SupportGram | undefined;
 }
+
+/** The last evaluation: relative gap and primal objective P = ½‖A x − y‖² + λ Σ w|x|. */
+interface Evaluation {
+  relGap: number;
+  primal: number;
+}
+
+/** Iterations of unchanged support before a finish is tried. */
+const FINISH_AFTER_STABLE = 1;
+const FINISH_ROUNDS = 3;
+/** Relative reduction of the restricted optimality residual asked of each Newton step's CG. */
+const FINISH_CG_REDUCTION = 1e-4;
 
 /**
  * Runs FISTA from the x given (in place: x holds the estimate on return).
@@ -58,22 +96,38 @@ export function fista(
   const r = ws.rowVector('fista.r');
   cur.set(x);
 
-  let relGap = residualAndGap(A, y, cur, weightedL1Norm(cur, weights), axCur, r, gCur, opts);
-  prev.set(cur);
-  axPrev.set(axCur);
-  gPrev.set(gCur);
-
+  const evaluation: Evaluation = { relGap: Infinity, primal: Infinity };
+  residualAndGap(A, y, cur, weightedL1Norm(cur, weights), axCur, r, gCur, opts, evaluation);
   let t = 1;
   let iterations = 0;
+  let finishIterations = 0;
+  // A nonzero start (a warm start) brings its support along: try the finish at once.
+  let stableFor = weightedL1Norm(cur, null) > 0 ? FINISH_AFTER_STABLE : 0;
+  let finishTried = false;
+  const finishState: FinishState = { gram: opts.gram, iterations: 0, accepted: false };
   let stoppedBy: FistaOutcome['stoppedBy'] = 'cap';
-  if (relGap <= opts.tolerance) stoppedBy = 'gap';
-  while (stoppedBy === 'cap' && iterations < opts.maxIterations) {
+  for (;;) {
+    if (evaluation.relGap <= opts.tolerance) {
+      stoppedBy = 'gap';
+      break;
+    }
+    if (opts.finish && !finishTried && stableFor >= FINISH_AFTER_STABLE && iterations < opts.maxIterations) {
+      finishTried = true;
+      finishOnSupport(A, y, cur, axCur, gCur, opts, evaluation, opts.maxIterations - iterations, ws, finishState);
+      iterations += finishState.iterations;
+      finishIterations += finishState.iterations;
+      if (finishState.accepted) t = 1; // fresh momentum from the finished point
+      continue;
+    }
+    if (iterations >= opts.maxIterations) break;
+    // With t = 1 the extrapolation weight β is 0, so whatever prev holds is ignored.
     const tNext = (1 + Math.sqrt(1 + 4 * t * t)) / 2;
     const beta = (t - 1) / tNext;
     let restartSignal = 0;
     let stepSq = 0;
     let normSq = 0;
     let l1 = 0;
+    let supportMoves = 0;
     for (let j = 0, i = 0; i < cur.length; j++, i += 2) {
       const cRe = cur[i]!;
       const cIm = cur[i + 1]!;
@@ -84,11 +138,13 @@ export function fista(
       const uRe = zRe - step * gRe;
       const uIm = zIm - step * gIm;
       const w = weights === null ? 1 : weights[j]!;
-      const mod = Math.sqrt(uRe * uRe + uIm * uIm);
       const tj = thresh * w;
+      const q = uRe * uRe + uIm * uIm;
       let nRe = 0;
       let nIm = 0;
-      if (mod > tj) {
+      // Most entries of a sparse iterate fall below the threshold: no square root for those.
+      if (q > tj * tj) {
+        const mod = Math.sqrt(q);
         const f = 1 - tj / mod;
         nRe = f * uRe;
         nIm = f * uIm;
@@ -96,6 +152,7 @@ export function fista(
       }
       next[i] = nRe;
       next[i + 1] = nIm;
+      if ((nRe !== 0 || nIm !== 0) !== (cRe !== 0 || cIm !== 0)) supportMoves++;
       const dRe = nRe - cRe;
       const dIm = nIm - cIm;
       restartSignal += (zRe - nRe) * dRe + (zIm - nIm) * dIm;
@@ -114,19 +171,148 @@ export function fista(
     gPrev = gCur;
     gCur = gSpare;
 
-    relGap = residualAndGap(A, y, cur, l1, axCur, r, gCur, opts);
+    residualAndGap(A, y, cur, l1, axCur, r, gCur, opts, evaluation);
     iterations++;
     // Restart when the momentum points against the step just taken.
     t = opts.restart && restartSignal > 0 ? 1 : tNext;
-    if (relGap <= opts.tolerance) stoppedBy = 'gap';
-    else if (Math.sqrt(stepSq) <= opts.stepTolerance * Math.sqrt(normSq)) stoppedBy = 'step';
+    if (supportMoves === 0) stableFor++;
+    else {
+      stableFor = 0;
+      finishTried = false;
+    }
+    if (evaluation.relGap > opts.tolerance && Math.sqrt(stepSq) <= opts.stepTolerance * Math.sqrt(normSq)) {
+      stoppedBy = 'step';
+      break;
+    }
   }
   x.set(cur);
-  return { iterations, relGap, stoppedBy };
+  return { iterations, relGap: evaluation.relGap, stoppedBy, finishIterations, gram: finishState.gram };
+}
+
+interface FinishState {
+  gram: SupportGram | undefined;
+  iterations: number;
+  accepted: boolean;
 }
 
 /**
- * Computes ax = A x, r = A x − y, g = Aᴴ r and returns the relative duality gap at x.
+ * The finish on the support (see the top of this file). Works in place on x, A x and
+ * g = Aᴴ(A x − y), which it replaces only by a point of lower objective; `evaluation` follows.
+ */
+function finishOnSupport(
+  A: LinearOperator,
+  y: Float64Array,
+  x: Float64Array,
+  ax: Float64Array,
+  g: Float64Array,
+  opts: FistaOptions,
+  evaluation: Evaluation,
+  budget: number,
+  ws: Workspace,
+  state: FinishState,
+): void {
+  state.iterations = 0;
+  state.accepted = false;
+  const support = ws.colIndices('fista.support');
+  let count = 0;
+  for (let j = 0; 2 * j < x.length; j++) if (x[2 * j] !== 0 || x[2 * j + 1] !== 0) support[count++] = j;
+  if (count === 0 || count >= A.rows) return;
+  let gram: SupportGram | undefined;
+  if (count <= DENSE_SUPPORT_LIMIT) {
+    const built = gramFor(A, support, count, state.gram, ws);
+    gram = built.gram;
+    state.gram = gram;
+    state.iterations += Math.ceil(built.applies / 2);
+  }
+  const candidate = ws.colVector('fista.finishX');
+  const candidateAx = ws.rowVector('fista.finishAx');
+  const candidateG = ws.colVector('fista.finishG');
+  const r = ws.rowVector('fista.r');
+  const trial: Evaluation = { relGap: Infinity, primal: Infinity };
+  const xs = ws.colVector('fista.finishXs');
+  const gs = ws.colVector('fista.finishGs');
+  const rounds = gram === undefined ? FINISH_ROUNDS : 1;
+  for (let round = 0; round < rounds && state.iterations + count + 1 < budget; round++) {
+    for (let k = 0; k < count; k++) {
+      const j = support[k]!;
+      xs[2 * k] = x[2 * j]!;
+      xs[2 * k + 1] = x[2 * j + 1]!;
+      gs[2 * k] = g[2 * j]!;
+      gs[2 * k + 1] = g[2 * j + 1]!;
+    }
+    if (gram === undefined || !newtonOnGram(gram, opts.lambda, opts.weights, xs, gs, ws)) {
+      if (gram !== undefined) {
+        // The dense path failed: restart from x with conjugate gradients.
+        for (let k = 0; k < count; k++) {
+          xs[2 * k] = x[2 * support[k]!]!;
+          xs[2 * k + 1] = x[2 * support[k]! + 1]!;
+        }
+      }
+      state.iterations += newtonStepByCg(A, support, count, xs, g, opts, ws);
+    }
+    candidate.fill(0);
+    let l1 = 0;
+    for (let k = 0; k < count; k++) {
+      const j = support[k]!;
+      const re = xs[2 * k]!;
+      const im = xs[2 * k + 1]!;
+      candidate[2 * j] = re;
+      candidate[2 * j + 1] = im;
+      l1 += (opts.weights === null ? 1 : opts.weights[j]!) * Math.sqrt(re * re + im * im);
+    }
+    residualAndGap(A, y, candidate, l1, candidateAx, r, candidateG, opts, trial);
+    state.iterations += 1;
+    if (!(trial.primal < evaluation.primal)) break;
+    x.set(candidate);
+    ax.set(candidateAx);
+    g.set(candidateG);
+    evaluation.relGap = trial.relGap;
+    evaluation.primal = trial.primal;
+    state.accepted = true;
+    if (trial.relGap <= opts.tolerance) break;
+  }
+}
+
+/**
+ * One Newton step for the restricted condition by conjugate gradients through the operator
+ * (supports too large for the dense path): xs (compact) moves by δ solving (A_SᴴA_S + B) δ = −F,
+ * with F from xs and the full gradient g. Returns the CG iterations spent.
+ */
+function newtonStepByCg(
+  A: LinearOperator,
+  support: Int32Array,
+  count: number,
+  xs: Float64Array,
+  g: Float64Array,
+  opts: FistaOptions,
+  ws: Workspace,
+): number {
+  const rhs = ws.colVector('fista.finishRhs');
+  const blocks = ws.colReals('fista.finishBlocks');
+  const delta = ws.colVector('fista.finishDelta');
+  // −F(x_S), and the blocks of B: (λ w/|x|)(I − û ûᵀ) with û = (re, im)/|x|.
+  let rhsSq = 0;
+  for (let k = 0; k < count; k++) {
+    const j = support[k]!;
+    const re = xs[2 * k]!;
+    const im = xs[2 * k + 1]!;
+    const modSq = re * re + im * im;
+    const f = (opts.lambda * (opts.weights === null ? 1 : opts.weights[j]!)) / Math.sqrt(modSq);
+    rhs[2 * k] = -(g[2 * j]! + f * re);
+    rhs[2 * k + 1] = -(g[2 * j + 1]! + f * im);
+    rhsSq += rhs[2 * k]! ** 2 + rhs[2 * k + 1]! ** 2;
+    blocks[3 * k] = (f * im * im) / modSq;
+    blocks[3 * k + 1] = (-f * re * im) / modSq;
+    blocks[3 * k + 2] = (f * re * re) / modSq;
+  }
+  const cg = restrictedNormalCg(A, support, count, rhs, delta, count + 10, FINISH_CG_REDUCTION * Math.sqrt(rhsSq), ws, blocks);
+  for (let i = 0; i < 2 * count; i++) xs[i] = xs[i]! + delta[i]!;
+  return cg.iterations;
+}
+
+/**
+ * Computes ax = A x, r = A x − y, g = Aᴴ r, and the relative duality gap and primal objective
+ * at x (into `out`).
  * Dual point u = s·(y − A x) with s = min(1, λ / max_j |g_j|/w_j), so that |(Aᴴu)_j| ≤ λ w_j;
  * D(u) = ½‖y‖² − ½‖y − u‖² = −s Re⟨y, r⟩ − ½ s²‖r‖².
  */
@@ -139,7 +325,8 @@ function residualAndGap(
   r: Float64Array,
   g: Float64Array,
   opts: FistaOptions,
-): number {
+  out: Evaluation,
+): void {
   A.apply(x, ax);
   let rNormSq = 0;
   let yDotR = 0;
@@ -154,5 +341,6 @@ function residualAndGap(
   const s = dualNorm > opts.lambda ? opts.lambda / dualNorm : 1;
   const primal = 0.5 * rNormSq + opts.lambda * weightedL1;
   const dual = -s * yDotR - 0.5 * s * s * rNormSq;
-  return primal > 0 ? Math.max(0, primal - dual) / primal : 0;
+  out.primal = primal;
+  out.relGap = primal > 0 ? Math.max(0, primal - dual) / primal : 0;
 }

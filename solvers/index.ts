@@ -2,7 +2,7 @@
  * sparsewire solvers: sparse recovery over the matrix-free operator interface.
  * Pure computation (typed arrays in, typed arrays out); see docs/solvers.md.
  */
-export type { Certificate, LinearOperator, SolveResult, WarmState } from './types.js';
+export type { Certificate, LinearOperator, SolveResult, SupportGram, WarmState } from './types.js';
 export {
   parseSolverSettings,
   solverSettingsSchema,

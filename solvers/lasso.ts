@@ -81,6 +81,7 @@ export function lassoMethod(
   }
   let used = 0;
   let relGap = Infinity;
+  let gram = warm?.gram;
   let reachedTarget = false;
   for (;;) {
     const final = level <= target;
@@ -95,11 +96,14 @@ export function lassoMethod(
         tolerance: final ? s.tolerance : Math.max(s.tolerance, STAGE_TOLERANCE),
         stepTolerance: s.stepTolerance,
         restart: s.restart,
+        finish: true,
+        gram,
       },
       ws,
     );
     used += out.iterations;
     relGap = out.relGap;
+    gram = out.gram;
     if (final) {
       reachedTarget = true;
       break;
@@ -128,11 +132,14 @@ export function lassoMethod(
           tolerance: s.tolerance,
           stepTolerance: s.stepTolerance,
           restart: s.restart,
+          finish: true,
+          gram,
         },
         ws,
       );
       used += out.iterations;
       relGap = out.relGap;
+      gram = out.gram;
       rounds++;
     }
   }
@@ -144,7 +151,7 @@ export function lassoMethod(
     converged: reachedTarget && relGap <= s.tolerance,
     fitted: false,
     evidence,
-    warm: { lambda: target, step },
+    warm: gram === undefined ? { lambda: target, step } : { lambda: target, step, gram },
   };
 }
 

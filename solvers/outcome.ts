@@ -13,5 +13,5 @@ export interface MethodOutcome {
   /** Named figures for subscribers: the λ or ε used, secondary residuals, stage counts. */
   evidence: Record<string, number>;
   /** The method's own parts of the next warm state (x and support are added by solve()). */
-  warm: Pick<WarmState, 'lambda' | 'step' | 'dual'>;
+  warm: Pick<WarmState, 'lambda' | 'step' | 'dual' | 'gram'>;
 }

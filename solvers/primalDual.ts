@@ -109,10 +109,11 @@ export function primalDual(
       const xIm = x[i + 1]!;
       const uRe = xRe - tau * gRe;
       const uIm = xIm - tau * gIm;
-      const mod = Math.sqrt(uRe * uRe + uIm * uIm);
+      const q2 = uRe * uRe + uIm * uIm;
       const t = tau * w;
       const wasZero = xRe === 0 && xIm === 0;
-      if (mod > t) {
+      if (q2 > t * t) {
+        const mod = Math.sqrt(q2);
         const f = 1 - t / mod;
         x[i] = f * uRe;
         x[i + 1] = f * uIm;

@@ -20,8 +20,10 @@ export interface CgOutcome {
 }
 
 /**
- * Solves A_Sᴴ A_S δ = rhs for δ on S, starting from δ = 0. Stops when the residual is at most
- * absTol or after maxIterations. rhs and delta are compact (length ≥ 2·count).
+ * Solves (A_Sᴴ A_S + B) δ = rhs for δ on S, starting from δ = 0. Stops when the residual is at
+ * most absTol or after maxIterations. rhs and delta are compact (length ≥ 2·count). B, when
+ * given, is block diagonal with one symmetric positive semidefinite 2×2 block per entry (acting
+ * on its real and imaginary parts), stored as (b11, b12, b22) in blocks[3k..3k+2].
  */
 export function restrictedNormalCg(
   A: LinearOperator,
@@ -32,6 +34,7 @@ export function restrictedNormalCg(
   maxIterations: number,
   absTol: number,
   ws: Workspace,
+  blocks: Float64Array | null = null,
 ): CgOutcome {
   const len = 2 * count;
   const r = ws.colVector('cg.r');
@@ -55,8 +58,25 @@ export function restrictedNormalCg(
     A.apply(pFull, ap);
     let curvature = 0;
     for (let i = 0; i < ap.length; i++) curvature += ap[i]! * ap[i]!;
-    if (!(curvature > 0)) break; // p lies in the null space of A_S: nothing more to gain.
+    if (blocks !== null) {
+      for (let k = 0; k < count; k++) {
+        const j = support[k]!;
+        const pr = pFull[2 * j]!;
+        const pi = pFull[2 * j + 1]!;
+        curvature += blocks[3 * k]! * pr * pr + 2 * blocks[3 * k + 1]! * pr * pi + blocks[3 * k + 2]! * pi * pi;
+      }
+    }
+    if (!(curvature > 0)) break; // p lies in the null space: nothing more to gain.
     A.adjoint(ap, aap);
+    if (blocks !== null) {
+      for (let k = 0; k < count; k++) {
+        const j = support[k]!;
+        const pr = pFull[2 * j]!;
+        const pi = pFull[2 * j + 1]!;
+        aap[2 * j] = aap[2 * j]! + blocks[3 * k]! * pr + blocks[3 * k + 1]! * pi;
+        aap[2 * j + 1] = aap[2 * j + 1]! + blocks[3 * k + 1]! * pr + blocks[3 * k + 2]! * pi;
+      }
+    }
     const alpha = gamma / curvature;
     let gammaNext = 0;
     for (let k = 0; k < count; k++) {

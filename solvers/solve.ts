@@ -3,6 +3,7 @@ import { allFinite, normSquared } from './complex.js';
 import { basisPursuitMethod } from './basisPursuit.js';
 import { cosampMethod, ihtMethod, ompMethod } from './greedy.js';
 import { lassoMethod } from './lasso.js';
+import { rmsColumnNorm } from './noise.js';
 import type { MethodOutcome } from './outcome.js';
 import { REFIT_MAX_ITERATIONS, REFIT_TOLERANCE, refitOnSupport } from './refit.js';
 import { reweightedL1Method } from './reweighted.js';
@@ -53,13 +54,14 @@ export function solve(
   const iterate = x.slice();
 
   const supportBuffer = ws.colIndices('solve.support');
-  let count = detectSupport(x, settings.supportThreshold, supportBuffer);
+  const floor = noiseFloor(A, settings, outcome, noiseSigma, ws);
+  let count = detectSupport(x, settings.supportThreshold, supportBuffer, floor);
   const evidence = outcome.evidence;
   if (settings.refit && !outcome.fitted && count > 0) {
     if (count < A.rows) {
       const fit = refitOnSupport(A, y, supportBuffer, count, x, REFIT_MAX_ITERATIONS, REFIT_TOLERANCE, ws);
       evidence['refit_iterations'] = fit.iterations;
-      count = detectSupport(x, settings.supportThreshold, supportBuffer);
+      count = detectSupport(x, settings.supportThreshold, supportBuffer, floor);
     } else {
       // As many columns as equations: a fit would interpolate the noise. Keep the l1 answer.
       evidence['refit_skipped'] = 1;
@@ -86,6 +88,26 @@ export function solve(
     evidence,
   };
 }
+
+/**
+ * The smallest coefficient the noise does not explain: σ·NOISE_FLOOR_FACTOR/c̄ when a noise level
+ * is known (the frame's, the settings', or LASSO's estimate). A least-squares coefficient of
+ * column j carries noise of standard deviation σ/‖a_j‖, so entries below it are not evidence.
+ */
+function noiseFloor(
+  A: LinearOperator,
+  settings: SolverSettings,
+  outcome: MethodOutcome,
+  noiseSigma: number | undefined,
+  ws: Workspace,
+): number {
+  const sigma = noiseSigma ?? settings.noiseSigma ?? outcome.evidence['noise_sigma_estimate'];
+  if (sigma === undefined || sigma === 0) return 0;
+  return (NOISE_FLOOR_FACTOR * sigma) / rmsColumnNorm(A, ws);
+}
+
+/** Two standard deviations: a coefficient that small is as likely noise as signal. */
+const NOISE_FLOOR_FACTOR = 2;
 
 function runMethod(
   A: LinearOperator,
@@ -135,5 +157,14 @@ function usableWarmState(warm: WarmState | undefined, A: LinearOperator): WarmSt
   if (warm.lambda !== undefined && Number.isFinite(warm.lambda) && warm.lambda > 0) out.lambda = warm.lambda;
   if (warm.step !== undefined && Number.isFinite(warm.step) && warm.step > 0) out.step = warm.step;
   if (warm.support !== undefined) out.support = warm.support;
+  const gram = warm.gram;
+  if (
+    gram !== undefined &&
+    gram.matrix.length === 2 * gram.support.length * gram.support.length &&
+    gram.support.every((j, k) => j >= 0 && j < A.cols && (k === 0 || j > gram.support[k - 1]!)) &&
+    allFinite(gram.matrix)
+  ) {
+    out.gram = gram;
+  }
   return out;
 }

@@ -4,17 +4,18 @@
  */
 
 /**
- * Writes, in ascending order, the indices j with |x_j| > relThreshold · max|x| (and x_j ≠ 0)
- * into `out`; returns how many. A relative threshold makes the answer independent of scale.
+ * Writes, in ascending order, the indices j with |x_j| > max(relThreshold · max|x|, floor) (and
+ * x_j ≠ 0) into `out`; returns how many. The relative part makes the answer independent of
+ * scale; the absolute floor lets a known noise level veto entries that noise alone explains.
  */
-export function detectSupport(x: Float64Array, relThreshold: number, out: Int32Array): number {
+export function detectSupport(x: Float64Array, relThreshold: number, out: Int32Array, floor = 0): number {
   let peak = 0;
   for (let i = 0; i < x.length; i += 2) {
     const q = x[i]! * x[i]! + x[i + 1]! * x[i + 1]!;
     if (q > peak) peak = q;
   }
   if (peak === 0) return 0;
-  const cut = relThreshold * relThreshold * peak;
+  const cut = Math.max(relThreshold * relThreshold * peak, floor * floor);
   let count = 0;
   for (let j = 0, i = 0; i < x.length; j++, i += 2) {
     const q = x[i]! * x[i]! + x[i + 1]! * x[i + 1]!;

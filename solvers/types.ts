@@ -18,6 +18,19 @@ export interface WarmState {
    * pursuit and reweighted l1 restart their primal-dual iterations from it.
    */
   dual?: Float64Array;
+  /**
+   * Gram matrix A_SᴴA_S of the support the previous frame's LASSO finish used (k×k complex,
+   * row-major, interleaved): a frame with the same support reuses it instead of k applies.
+   */
+  gram?: SupportGram;
+}
+
+/** The Gram matrix of a support, as LASSO carries it between frames. */
+export interface SupportGram {
+  /** Ascending column indices S (k of them). */
+  support: Int32Array;
+  /** A_SᴴA_S, k×k complex Hermitian, row-major, interleaved (length 2k²). */
+  matrix: Float64Array;
 }
 
 /** A certificate of optimality or fit, with its name so a subscriber can read it. */

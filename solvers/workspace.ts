@@ -9,7 +9,7 @@ import type { LinearOperator } from '../operators/types.js';
 export class Workspace {
   readonly n: number;
   readonly m: number;
-  private readonly floats = new Map<string, Float64Array>();
+  private readonly floatBuffers = new Map<string, Float64Array>();
   private readonly ints = new Map<string, Int32Array>();
   /** Root-mean-square column norm of the operator, estimated once (see noise.ts). */
   rmsColumnNorm: number | undefined;
@@ -44,11 +44,21 @@ export class Workspace {
     return b;
   }
 
+  /** A real buffer of at least `length` entries; grows (once per new high) when asked for more. */
+  floats(name: string, length: number): Float64Array {
+    let b = this.floatBuffers.get(name);
+    if (b === undefined || b.length < length) {
+      b = new Float64Array(length);
+      this.floatBuffers.set(name, b);
+    }
+    return b;
+  }
+
   private floats1(name: string, length: number): Float64Array {
-    let b = this.floats.get(name);
+    let b = this.floatBuffers.get(name);
     if (b === undefined) {
       b = new Float64Array(length);
-      this.floats.set(name, b);
+      this.floatBuffers.set(name, b);
     }
     return b;
   }
