@@ -43,6 +43,7 @@ const OPTIONS: OptionSpec[] = [
   { flag: 'outbox-low-bytes', env: 'SPARSEWIRE_OUTBOX_LOW_BYTES', kind: 'int', target: 'limits.outboxLowBytes', help: 'Unsent bytes below which it has caught up (default 262144).' },
   { flag: 'outbox-hard-cap-bytes', env: 'SPARSEWIRE_OUTBOX_HARD_CAP_BYTES', kind: 'int', target: 'limits.outboxHardCapBytes', help: 'Unsent bytes that terminate a connection (default 16777216).' },
   { flag: 'outbox-max-notices', env: 'SPARSEWIRE_OUTBOX_MAX_NOTICES', kind: 'int', target: 'limits.outboxMaxNotices', help: 'Notices held for a subscriber that is behind (default 1000).' },
+  { flag: 'max-queued-bytes', env: 'SPARSEWIRE_MAX_QUEUED_BYTES', kind: 'int', target: 'limits.maxQueuedBytes', help: 'Measurement bytes all queues may hold before reading from producers pauses (default 268435456).' },
   { flag: 'log-level', env: 'SPARSEWIRE_LOG_LEVEL', kind: 'string', target: 'logLevel', help: 'fatal, error, warn, info (default), debug, trace or silent.' },
   { flag: 'config', env: 'SPARSEWIRE_CONFIG', kind: 'string', target: 'config', help: 'JSON file with any of these settings (camelCase keys, see docs/daemon.md).' },
 ];

@@ -23,6 +23,11 @@ export interface DaemonLimits {
   outboxHardCapBytes: number;
   /** Notices (alerts, missed ranges, stream events) held for a subscriber that is behind. */
   outboxMaxNotices: number;
+  /**
+   * Measurement bytes all stream queues together may hold; above it the daemon stops reading
+   * from producer sockets (TCP pushes back) until half of it has drained.
+   */
+  maxQueuedBytes: number;
 }
 
 export interface DaemonConfig {
@@ -61,6 +66,7 @@ export const DEFAULT_LIMITS: DaemonLimits = {
   outboxLowBytes: 256 * 1024,
   outboxHardCapBytes: 16 * 1024 * 1024,
   outboxMaxNotices: 1000,
+  maxQueuedBytes: 256 * 1024 * 1024,
 };
 
 export function defaultStaticDir(): string | null {
@@ -108,6 +114,7 @@ function checkConfig(c: DaemonConfig): void {
   int(l.outboxHighBytes, 1, 'limits.outboxHighBytes');
   int(l.outboxHardCapBytes, 1, 'limits.outboxHardCapBytes');
   int(l.outboxMaxNotices, 1, 'limits.outboxMaxNotices');
+  int(l.maxQueuedBytes, 1, 'limits.maxQueuedBytes');
   if (!(l.outboxLowBytes < l.outboxHighBytes && l.outboxHighBytes < l.outboxHardCapBytes)) {
     throw new Error('limits: outboxLowBytes < outboxHighBytes < outboxHardCapBytes is required');
   }

@@ -41,6 +41,8 @@ export class DaemonCore {
   private readonly store: DeclarationStore | undefined;
   private readonly saveTimer: NodeJS.Timeout | undefined;
   private dirty = false;
+  /** Producer sockets are paused because the queues hold too many bytes. */
+  private ingestPaused = false;
   stopping = false;
 
   constructor(
@@ -55,6 +57,7 @@ export class DaemonCore {
       subscriberConnections: () => this.fanout.subscribers.size,
       activeAlerts: () => this.pipeline.streamNames().reduce((n, s) => n + (this.pipeline.status(s)?.activeAlerts.length ?? 0), 0),
       workers: () => this.pool.size,
+      queuedBytes: () => this.pipeline.queuedBytes(),
     });
     this.fanout = new FanOut(this.metrics, config.retainedResults);
     this.pool = new WorkerPool(config.workers, {
@@ -168,8 +171,27 @@ export class DaemonCore {
     return next === undefined ? undefined : next - 1;
   }
 
-  markDirty(): void {
+  /** A frame entered a queue: remember to save its stream's sequence number, and bound memory. */
+  frameAccepted(): void {
     this.dirty = true;
+    if (!this.ingestPaused && this.pipeline.queuedBytes() > this.config.limits.maxQueuedBytes) {
+      this.ingestPaused = true;
+      this.metrics.ingestPauses.inc();
+      this.log.warn({ queuedBytes: this.pipeline.queuedBytes() }, 'queues full: reading from producers paused');
+      for (const p of this.producers) p.ws.pause();
+    }
+  }
+
+  /** Producers connecting while reading is paused start paused too. */
+  get ingestIsPaused(): boolean {
+    return this.ingestPaused;
+  }
+
+  private maybeResumeIngest(): void {
+    if (!this.ingestPaused || this.pipeline.queuedBytes() > this.config.limits.maxQueuedBytes / 2) return;
+    this.ingestPaused = false;
+    this.log.info('queues drained: reading from producers resumed');
+    for (const p of this.producers) p.ws.resume();
   }
 
   /** The JSON of GET /v1/streams: streams `principal` may watch (all without one). */
@@ -248,11 +270,13 @@ export class DaemonCore {
         this.metrics.latencySeconds.observe(r.latencySeconds);
         this.fanout.publishResult(r);
         this.streams.get(r.stream)?.producer?.noteFinished(r.stream, r.seq, 'solved');
+        this.maybeResumeIngest();
         return;
       }
       case 'dropped':
         this.metrics.framesDropped.inc({ reason: e.reason });
         this.streams.get(e.stream)?.producer?.noteFinished(e.stream, e.seq, 'dropped');
+        this.maybeResumeIngest();
         return;
       case 'missed':
         this.fanout.publishMissed(e.missed);

@@ -8,6 +8,7 @@ export interface GaugeReaders {
   subscriberConnections(): number;
   activeAlerts(): number;
   workers(): number;
+  queuedBytes(): number;
 }
 
 /**
@@ -28,6 +29,7 @@ export class DaemonMetrics {
   readonly connectionsRefused: Counter;
   readonly connectionsClosed: Counter;
   readonly workersReplaced: Counter;
+  readonly ingestPauses: Counter;
   readonly solveSeconds: Histogram;
   readonly latencySeconds: Histogram;
 
@@ -45,10 +47,12 @@ export class DaemonMetrics {
     this.connectionsRefused = r.counter('sparsewire_connections_refused_total', 'WebSocket connections refused at the handshake.', ['reason']);
     this.connectionsClosed = r.counter('sparsewire_connections_closed_total', 'Connections the daemon closed on its own (slow subscriber, dead peer).', ['endpoint', 'reason']);
     this.workersReplaced = r.counter('sparsewire_workers_replaced_total', 'Solver worker threads that died and were replaced.');
+    this.ingestPauses = r.counter('sparsewire_ingest_pauses_total', 'Times reading from producers was paused because the queues held too many bytes.');
     this.solveSeconds = r.histogram('sparsewire_solve_seconds', 'Solver time per frame, in seconds.', exponentialBuckets(0.0005, 2, 14));
     this.latencySeconds = r.histogram('sparsewire_frame_latency_seconds', 'Time from receiving a frame to publishing its result, in seconds.', exponentialBuckets(0.0005, 2, 14));
     r.gauge('sparsewire_streams', 'Declared streams.', read.streams);
     r.gauge('sparsewire_queued_frames', 'Frames waiting in all stream queues.', read.queuedFrames);
+    r.gauge('sparsewire_queued_bytes', 'Measurement bytes of the frames waiting in all stream queues.', read.queuedBytes);
     r.gauge('sparsewire_producer_connections', 'Open producer connections.', read.producerConnections);
     r.gauge('sparsewire_subscriber_connections', 'Open subscriber connections.', read.subscriberConnections);
     r.gauge('sparsewire_alerts_active', 'Alert rules currently raised.', read.activeAlerts);

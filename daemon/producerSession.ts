@@ -76,7 +76,7 @@ export class ProducerSession extends Connection {
       receivedAt: performance.now(),
     });
     if (verdict.accepted) {
-      this.core.markDirty();
+      this.core.frameAccepted();
       return;
     }
     this.refuse(stream, seq, verdict.reason, verdict.field ? `${verdict.field}: ${verdict.detail}` : verdict.detail);

@@ -144,6 +144,7 @@ export class DaemonServer {
     if (endpoint === 'produce') {
       const session = new ProducerSession(ws, principal, this.core, endpoint, id);
       this.core.producers.add(session);
+      if (this.core.ingestIsPaused) ws.pause();
       release = () => this.core.releaseProducer(session);
     } else {
       const session = new SubscriberSession(ws, principal, this.core, endpoint, id).init();
@@ -163,6 +164,8 @@ export class DaemonServer {
   /** Ping every peer; one that did not answer the previous ping is dead and terminated. */
   private beat(): void {
     for (const ws of this.wss.clients) {
+      // A socket we stopped reading (ingest paused) cannot show us its pongs: not its fault.
+      if (ws.isPaused) continue;
       if (this.alive.get(ws) === false) {
         const endpoint = this.endpointOf.get(ws) ?? 'watch';
         this.core.metrics.connectionsClosed.inc({ endpoint, reason: 'no_pong' });

@@ -129,6 +129,8 @@ export class Pipeline {
   private readonly streams = new Map<string, StreamEntry>();
   private readonly idleWaiters: Array<() => void> = [];
   private accepting = true;
+  /** Measurement bytes held by frames waiting in queues (what a flood of frames costs in memory). */
+  private waitingBytes = 0;
 
   constructor(private readonly options: PipelineOptions) {
     this.events = this.out.asObservable();
@@ -191,7 +193,11 @@ export class Pipeline {
       };
     }
     entry.order.accept(s.seq);
-    for (const displaced of offer.displaced) this.drop(entry, displaced.seq, 'dropped_by_queue');
+    this.waitingBytes += frame.y.byteLength;
+    for (const displaced of offer.displaced) {
+      this.waitingBytes -= displaced.y.byteLength;
+      this.drop(entry, displaced.seq, 'dropped_by_queue');
+    }
     this.kicks.next(s.stream);
     return { accepted: true };
   }
@@ -218,7 +224,10 @@ export class Pipeline {
     clearTimeout(timer);
     if (outcome === 'timeout') {
       for (const entry of this.streams.values()) {
-        for (const frame of entry.queue.takeAll()) this.drop(entry, frame.seq, 'shutdown');
+        for (const frame of entry.queue.takeAll()) {
+          this.waitingBytes -= frame.y.byteLength;
+          this.drop(entry, frame.seq, 'shutdown');
+        }
       }
     }
   }
@@ -262,6 +271,11 @@ export class Pipeline {
   }
 
   /** Frames waiting in all queues. */
+  /** Measurement bytes of the frames waiting in all queues. */
+  queuedBytes(): number {
+    return this.waitingBytes;
+  }
+
   queuedFrames(): number {
     let n = 0;
     for (const e of this.streams.values()) n += e.queue.length;
@@ -275,7 +289,9 @@ export class Pipeline {
     const step = (): Observable<PipelineEvent[]> =>
       defer(() => {
         const frame = entry.queue.shift();
-        return frame === undefined ? EMPTY : from(this.solveOne(entry, frame));
+        if (frame === undefined) return EMPTY;
+        this.waitingBytes -= frame.y.byteLength;
+        return from(this.solveOne(entry, frame));
       });
     // One frame in flight per stream: `expand` asks for the next frame only after a solve ends.
     return concat(

@@ -95,3 +95,29 @@ function coveredSeqs(c: TestClient): Set<number> {
   }
   return seen;
 }
+
+// A producer that ignores its credits on a stream with a huge queue: the daemon bounds the bytes
+// all queues hold by pausing its reads (TCP backpressure), and loses nothing.
+describe('a producer flooding large queues', () => {
+  it('is paused at the socket, then resumed, with every frame solved', async () => {
+    const daemon = await startTestDaemon({ workers: 1, limits: { maxQueuedBytes: 64 * 1024 } as never });
+    try {
+      const s = dftStream();
+      const p = await TestClient.connect(wsUrl(daemon, '/v1/produce'));
+      await declare(p, { name: 'flood', operator: s.operator, solver: { method: 'lasso' }, queue: { capacity: 5000, policy: 'refuse_new' } });
+      const y = s.measurements(0); // 1 KiB of measurements per frame
+      const FRAMES = 600;
+      for (let t = 0; t < FRAMES; t++) p.send(frameMessage('flood', t, y));
+      await p.next((m) => m.type === 'ack' && m.through_seq === FRAMES - 1, 120_000, 'the last ack');
+      const text = daemon.metricsText();
+      expect(metricValue(text, 'sparsewire_ingest_pauses_total')).toBeGreaterThanOrEqual(1);
+      expect(metricValue(text, 'sparsewire_frames_solved_total')).toBe(FRAMES);
+      expect(metricValue(text, 'sparsewire_frames_refused_total')).toBe(0);
+      expect(metricValue(text, 'sparsewire_frames_dropped_total')).toBe(0);
+      expect(metricValue(text, 'sparsewire_queued_bytes')).toBe(0);
+      p.close();
+    } finally {
+      await daemon.close();
+    }
+  });
+});
