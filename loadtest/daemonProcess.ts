@@ -55,9 +55,13 @@ export function startChildDaemon(options: ChildDaemonOptions): Promise<ChildDaem
   let announced = false;
   let exited: ChildDaemon['exited'] = null;
   let stopping = false;
+  // Never leave a daemon behind: if this process exits first, the child goes with it.
+  const killOnExit = () => child.kill('SIGKILL');
+  process.once('exit', killOnExit);
   const exit = new Promise<void>((resolve) => {
     child.once('exit', (code, signal) => {
       exited = { code, signal };
+      process.off('exit', killOnExit);
       resolve();
     });
   });

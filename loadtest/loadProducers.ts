@@ -58,7 +58,7 @@ export class LoadProducers {
   async connect(): Promise<void> {
     const count = Math.max(1, ...this.#connectionOf.map((c) => c + 1));
     for (let i = 0; i < count; i++) {
-      const connection = new ReconnectingConnection({ ...this.options, backoff: { ...this.options.backoff } }, '/v1/produce');
+      const connection = new ReconnectingConnection(this.options, '/v1/produce');
       connection.on('message', (msg) => this.#dispatch(msg as DaemonToProducer));
       connection.on('down', (info) => {
         if (info.retryInMs !== null) this.#fail(`producer connection ${i} lost (${info.code} ${info.reason || 'no reason'})`);
