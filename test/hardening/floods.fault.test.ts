@@ -3,7 +3,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Producer, Subscriber, type ProducerStream, type Result } from '../../clients/index.js';
 import { eventually, metricValue } from '../../daemon/test/helpers.js';
 import { dftStream } from '../../daemon/test/synthetic.js';
-import { encode, float64ToBin, type AckMessage, type MissedMessage } from '../../protocol/index.js';
+import { encode, float64ToBin, type MissedMessage } from '../../protocol/index.js';
 import { DaemonProcess, mib, MiB, type MemorySample } from './support/daemonProcess.js';
 import { byScale, recordFigures } from './support/scale.js';
 import { RawSocket } from './support/wire.js';
