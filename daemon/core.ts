@@ -120,15 +120,10 @@ export class DaemonCore {
       if (record.identity !== identityOf(declaration)) {
         throw new RequestError('declaration_conflict', `stream "${name}" exists with a different declaration; close it first`, 'stream');
       }
-      await record.ready;
+      await opened(record);
     } else {
       record = this.open(declaration, undefined);
-      try {
-        await record.ready;
-      } catch (err) {
-        if (err instanceof WorkerError && err.field) throw new RequestError('invalid_field', err.message, err.field);
-        throw new RequestError('invalid_field', `stream.operator: the operator could not be built: ${(err as Error).message}`, 'stream.operator');
-      }
+      await opened(record);
       this.log.info({ stream: name, producer: producer.connectionId }, 'stream declared');
       this.fanout.publishStreamEvent(name, 'declared', declaration);
       await this.save();
@@ -302,6 +297,16 @@ export class DaemonCore {
   private save(): Promise<void> {
     if (this.store === undefined) return Promise.resolve();
     return this.store.save().catch((err: Error) => this.log.error({ err: err.message }, 'could not save stream declarations'));
+  }
+}
+
+/** Waits until the stream's operator is built; a failure is the declaration's fault. */
+async function opened(record: StreamRecord): Promise<void> {
+  try {
+    await record.ready;
+  } catch (err) {
+    if (err instanceof WorkerError && err.field) throw new RequestError('invalid_field', err.message, err.field);
+    throw new RequestError('invalid_field', `stream.operator: the operator could not be built: ${(err as Error).message}`, 'stream.operator');
   }
 }
 
