@@ -15,7 +15,7 @@ afterEach(() => vi.restoreAllMocks());
 
 describe('command line', () => {
   it('every command answers --help (and help <command>) with its usage and exit 0', async () => {
-    for (const command of ['serve', 'demo', 'send', 'watch', 'record', 'replay', 'inspect']) {
+    for (const command of ['serve', 'demo', 'send', 'watch', 'record', 'replay', 'inspect', 'load']) {
       const io = capture();
       expect(await main([command, '--help']), command).toBe(EXIT.ok);
       expect(await main(['help', command]), command).toBe(EXIT.ok);
