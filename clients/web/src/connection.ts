@@ -8,14 +8,13 @@ import { Backoff, type BackoffSettings } from '../../backoff.js';
 
 export type LinkState =
   | { kind: 'connecting'; attempt: number }
-  | { kind: 'live'; since: number }
+  | { kind: 'live' }
   | { kind: 'waiting'; attempt: number; retryAt: number; reason: string }
   | { kind: 'stopped' };
 
 /** The part of the WebSocket interface the connection uses (the browser's, or ws's in tests). */
 export interface SocketLike {
   binaryType: string;
-  readonly readyState: number;
   onopen: ((ev: unknown) => void) | null;
   onmessage: ((ev: { data: unknown }) => void) | null;
   onclose: ((ev: { code: number; reason: string }) => void) | null;
@@ -74,7 +73,7 @@ export class WatchLink {
     this.options.onState({ kind: 'stopped' });
   }
 
-  /** Drops the current socket and reconnects now (used by the "retry now" control). */
+  /** Skips the wait before the next attempt (the page's "try now" button). */
   retryNow(): void {
     if (this.stopped) return;
     if (this.timer) clearTimeout(this.timer);
@@ -107,7 +106,7 @@ export class WatchLink {
       if (message.type === 'subscribed') {
         this.attempt = 0;
         this.backoff.reset();
-        this.options.onState({ kind: 'live', since: this.now() });
+        this.options.onState({ kind: 'live' });
       }
       this.options.onMessage(message, this.now());
     };

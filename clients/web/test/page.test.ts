@@ -15,7 +15,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { type WebSocket, WebSocketServer } from 'ws';
 import { float64ToBin, uint32ToBin } from '../../../protocol/bin.js';
 import { decode, encode } from '../../../protocol/codec.js';
-import type { DaemonToSubscriber, StreamDeclaration } from '../../../protocol/messages.js';
+import type { DaemonToSubscriber, ResultMessage, StreamDeclaration } from '../../../protocol/messages.js';
 import { buildDashboard, WEB_DIR } from '../build.js';
 import { columnOfCell, type DelayDopplerGrid } from '../src/delay-doppler.js';
 import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, withFailureShot } from './browser.js';
@@ -54,7 +54,7 @@ function sparse(columns: number[], magnitudes: number[]) {
   return { indices: uint32ToBin(Uint32Array.from(columns)), values: float64ToBin(values) };
 }
 
-function result(stream: string, seq: number, extra: Partial<Extract<DaemonToSubscriber, { type: 'result' }>>): DaemonToSubscriber {
+function result(stream: string, seq: number, extra: Partial<ResultMessage>): ResultMessage {
   const now = Date.now();
   return {
     v: 1,
@@ -81,7 +81,15 @@ function result(stream: string, seq: number, extra: Partial<Extract<DaemonToSubs
   };
 }
 
+/** While true, the channel's frames come back empty: nothing recovered, so no `coefficients`. */
+let channelEmpty = false;
+
 function channelResult(seq: number): DaemonToSubscriber {
+  if (channelEmpty) {
+    const empty = result(channel.name, seq, {});
+    empty.evidence.support_size = 0;
+    return empty;
+  }
   const peak = reflectorAt(seq);
   const columns = [columnOfCell(GRID, peak.delay, peak.doppler), columnOfCell(GRID, 9, -2), columnOfCell(GRID, 12, 7)];
   return result(channel.name, seq, { coefficients: sparse(columns, [2, 1.1, 0.6]) });
@@ -252,6 +260,13 @@ describe.skipIf(missingChromium !== null)('dashboard page against a scripted dae
       expect(darkness.peak).toBeLessThan(darkness.other);
       expect(darkness.other).toBeLessThan(darkness.empty);
       await page.screenshot({ path: join(ARTIFACTS_DIR, 'dashboard-scripted-delay-doppler.png') });
+
+      // A frame with nothing recovered empties the map instead of leaving the last one up.
+      channelEmpty = true;
+      await page.waitForFunction(() => /no nonzero coefficients/.test(document.getElementById('recovery-readout')?.textContent ?? ''));
+      expect(await page.$eval('#heat', (c) => (c as HTMLCanvasElement).dataset.peakDelay)).toBeUndefined();
+      channelEmpty = false;
+      await page.waitForFunction(() => (document.getElementById('heat') as HTMLCanvasElement).dataset.peakDelay !== undefined);
 
       // An alert raised on a frame shows in the ledger with that frame, and on the roster.
       const raisedAt = ++tonesSeq;

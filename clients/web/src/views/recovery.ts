@@ -26,6 +26,7 @@ export interface RecoveryElements {
 }
 
 const MAIN_HEIGHT = 300;
+const NO_COEFFICIENTS: SparseVector = { indices: new Uint32Array(0), values: new Float64Array(0) };
 const SIDE_HEIGHT = 300;
 
 /** Magnitudes by index (stems), for spectra and basis coefficients. */
@@ -182,7 +183,8 @@ export class RecoveryView {
   draw(result: ResultMessage): void {
     const shape = this.shape;
     if (!shape) return;
-    const coefficients = result.coefficients ? sparseFromWire(result.coefficients) : null;
+    // An empty support travels as no `coefficients` at all (binary fields are never empty).
+    const coefficients = result.coefficients ? sparseFromWire(result.coefficients) : result.evidence.support_size === 0 ? NO_COEFFICIENTS : null;
     let readout = `frame ${result.seq} · support ${result.evidence.support_size}`;
     if (shape.kind === 'delay_doppler') {
       if (coefficients) readout = `frame ${result.seq} · ${this.heat.draw({ seq: result.seq, ...coefficients })}`;
