@@ -20,6 +20,8 @@ interface PendingAck {
 export class ProducerSession extends Connection {
   /** Streams this connection declared (and still produces). */
   readonly attached = new Set<string>();
+  /** Streams whose declaration is being handled (not answered yet). */
+  private readonly declaring = new Set<string>();
   private readonly pending = new Map<string, PendingAck>();
   private flushScheduled = false;
 
@@ -52,12 +54,19 @@ export class ProducerSession extends Connection {
     if (!mayAct(this.principal, 'produce', name)) {
       throw new RequestError('forbidden', `this token may not produce stream "${name}"`, 'stream.name');
     }
-    if (!this.attached.has(name) && this.attached.size >= this.core.config.limits.maxStreamsPerConnection) {
+    // Declarations still being built count too, or a burst of them would all pass this check.
+    const held = new Set([...this.attached, ...this.declaring]);
+    if (!held.has(name) && held.size >= this.core.config.limits.maxStreamsPerConnection) {
       throw new RequestError('limit_reached', `one connection may produce at most ${this.core.config.limits.maxStreamsPerConnection} streams`);
     }
-    const { credits, nextSeq } = await this.core.declare(this, msg.stream);
-    this.attached.add(name);
-    this.send({ v: 1, type: 'declared', ref: msg.ref, stream: name, credits, next_seq: nextSeq });
+    this.declaring.add(name);
+    try {
+      const { credits, nextSeq } = await this.core.declare(this, msg.stream);
+      this.attached.add(name);
+      this.send({ v: 1, type: 'declared', ref: msg.ref, stream: name, credits, next_seq: nextSeq });
+    } finally {
+      this.declaring.delete(name);
+    }
   }
 
   private frame(msg: FrameMessage): void {
