@@ -17,6 +17,9 @@ export const missingChromium = chromiumPath
   ? null
   : 'no Chromium found (looked for $SPARSEWIRE_CHROMIUM, /usr/bin/chromium, /usr/bin/chromium-browser); install the Debian package `chromium`';
 
+/** Appended to a browser suite's title, so a skipped run says why in the test report. */
+export const SKIP_NOTE = missingChromium ? ` (skipped: ${missingChromium})` : '';
+
 /** Test artifacts (screenshots) go to artifacts/ at the repository root, which git ignores. */
 export const ARTIFACTS_DIR = join(dirname(fileURLToPath(import.meta.url)), '..', '..', '..', 'artifacts');
 

@@ -18,7 +18,7 @@ import type { Browser } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createFeed, FEED_KINDS, type RangeFeed } from '../../feeds/index.js';
 import { buildDashboard } from '../build.js';
-import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, withFailureShot } from './browser.js';
+import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, SKIP_NOTE, withFailureShot } from './browser.js';
 
 const REPO = join(dirname(fileURLToPath(import.meta.url)), '..', '..', '..');
 /** The demo bursts one feed (in the order gearbox, range, telemetry) this often, in seconds. */
@@ -76,7 +76,7 @@ class DemoProcess {
   }
 }
 
-describe.skipIf(missingChromium !== null)('dashboard on the demo, in headless Chromium', () => {
+describe.skipIf(missingChromium !== null)('dashboard on the demo, in headless Chromium' + SKIP_NOTE, () => {
   let demo: DemoProcess;
   let browser: Browser;
 

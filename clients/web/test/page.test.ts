@@ -18,7 +18,7 @@ import { decode, encode } from '../../../protocol/codec.js';
 import type { DaemonToSubscriber, ResultMessage, StreamDeclaration } from '../../../protocol/messages.js';
 import { buildDashboard, WEB_DIR } from '../build.js';
 import { columnOfCell, type DelayDopplerGrid } from '../src/delay-doppler.js';
-import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, withFailureShot } from './browser.js';
+import { ARTIFACTS_DIR, BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, SKIP_NOTE, withFailureShot } from './browser.js';
 
 const TOKEN = 'watch-token-1';
 const GRID: DelayDopplerGrid = { delays: 16, dopplerFrom: -4, dopplerTo: 11 };
@@ -126,7 +126,7 @@ function telemetryResult(seq: number): DaemonToSubscriber {
 
 const CONTENT_TYPES: Record<string, string> = { '.html': 'text/html', '.js': 'text/javascript', '.css': 'text/css', '.map': 'application/json' };
 
-describe.skipIf(missingChromium !== null)('dashboard page against a scripted daemon', () => {
+describe.skipIf(missingChromium !== null)('dashboard page against a scripted daemon' + SKIP_NOTE, () => {
   let server: Server;
   let wss: WebSocketServer;
   let browser: Browser;

@@ -10,12 +10,12 @@ import { type RunningDaemon, startDaemon } from '../../../daemon/index.js';
 import { createFeed, runFeed } from '../../feeds/index.js';
 import { Producer } from '../../index.js';
 import { buildDashboard, WEB_DIR } from '../build.js';
-import { BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, withFailureShot } from './browser.js';
+import { BROWSER_TEST_TIMEOUT_MS, collectPageErrors, launchChromium, missingChromium, SKIP_NOTE, withFailureShot } from './browser.js';
 
 const PRODUCE_TOKEN = 'front-end-7f3a';
 const WATCH_TOKEN = 'gearbox-watch-91c2';
 
-describe.skipIf(missingChromium !== null)('dashboard with access tokens', () => {
+describe.skipIf(missingChromium !== null)('dashboard with access tokens' + SKIP_NOTE, () => {
   let daemon: RunningDaemon;
   let producer: Producer;
   let browser: Browser;
