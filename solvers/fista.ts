@@ -58,10 +58,13 @@ export interface FistaOutcome {
   gram: SupportGram | undefined;
 }
 
-/** The last evaluation: relative gap and primal objective P = ½‖A x − y‖² + λ Σ w|x|. */
+/** An iterate's evaluation: primal objective P = ½‖A x − y‖² + λ Σ w|x|, the parts of the dual
+ * objective, and (once the dual norm is known) the relative duality gap. */
 interface Evaluation {
   relGap: number;
   primal: number;
+  residualSq: number;
+  yDotResidual: number;
 }
 
 /** Iterations of unchanged support before a finish is tried. */
@@ -96,17 +99,31 @@ export function fista(
   const r = ws.rowVector('fista.r');
   cur.set(x);
 
-  const evaluation: Evaluation = { relGap: Infinity, primal: Infinity };
-  residualAndGap(A, y, cur, weightedL1Norm(cur, weights), axCur, r, gCur, opts, evaluation);
+  const evaluation: Evaluation = { relGap: Infinity, primal: Infinity, residualSq: 0, yDotResidual: 0 };
+  residualAndObjective(A, y, cur, weightedL1Norm(cur, weights), axCur, r, gCur, opts, evaluation);
+  const sums: StepSums = { restartSignal: 0, stepSq: 0, normSq: 0, l1: 0, nonzeros: 0, indexSum: 0, supportChanged: false, dualNorm: 0 };
+  for (let j = 0; 2 * j < cur.length; j++) {
+    if (cur[2 * j] !== 0 || cur[2 * j + 1] !== 0) {
+      sums.nonzeros++;
+      sums.indexSum += j;
+    }
+  }
   let t = 1;
   let iterations = 0;
   let finishIterations = 0;
   // A nonzero start (a warm start) brings its support along: try the finish at once.
-  let stableFor = weightedL1Norm(cur, null) > 0 ? FINISH_AFTER_STABLE : 0;
+  let stableFor = sums.nonzeros > 0 ? FINISH_AFTER_STABLE : 0;
   let finishTried = false;
   const finishState: FinishState = { gram: opts.gram, iterations: 0, accepted: false };
   let stoppedBy: FistaOutcome['stoppedBy'] = 'cap';
   for (;;) {
+    // With t = 1 the extrapolation weight β is 0, so whatever prev holds is ignored.
+    const tNext = (1 + Math.sqrt(1 + 4 * t * t)) / 2;
+    const beta = (t - 1) / tNext;
+    // The pass proposes the next iterate and, reading Aᴴ(A x − y) on its way, completes the
+    // current iterate's duality gap: the stopping test comes one pass late, at no extra sweep.
+    proxGradientStep(cur, prev, gCur, gPrev, next, beta, step, thresh, weights, sums);
+    completeGap(evaluation, sums.dualNorm, lambda);
     if (evaluation.relGap <= opts.tolerance) {
       stoppedBy = 'gap';
       break;
@@ -116,48 +133,19 @@ export function fista(
       finishOnSupport(A, y, cur, axCur, gCur, opts, evaluation, opts.maxIterations - iterations, ws, finishState);
       iterations += finishState.iterations;
       finishIterations += finishState.iterations;
-      if (finishState.accepted) t = 1; // fresh momentum from the finished point
-      continue;
+      if (finishState.accepted) {
+        t = 1; // fresh momentum from the finished point, whose next step is proposed anew
+        if (evaluation.relGap <= opts.tolerance) {
+          stoppedBy = 'gap';
+          break;
+        }
+        continue;
+      }
     }
     if (iterations >= opts.maxIterations) break;
-    // With t = 1 the extrapolation weight β is 0, so whatever prev holds is ignored.
-    const tNext = (1 + Math.sqrt(1 + 4 * t * t)) / 2;
-    const beta = (t - 1) / tNext;
-    let restartSignal = 0;
-    let stepSq = 0;
-    let normSq = 0;
-    let l1 = 0;
-    let supportMoves = 0;
-    for (let j = 0, i = 0; i < cur.length; j++, i += 2) {
-      const cRe = cur[i]!;
-      const cIm = cur[i + 1]!;
-      const zRe = cRe + beta * (cRe - prev[i]!);
-      const zIm = cIm + beta * (cIm - prev[i + 1]!);
-      const gRe = gCur[i]! + beta * (gCur[i]! - gPrev[i]!);
-      const gIm = gCur[i + 1]! + beta * (gCur[i + 1]! - gPrev[i + 1]!);
-      const uRe = zRe - step * gRe;
-      const uIm = zIm - step * gIm;
-      const w = weights === null ? 1 : weights[j]!;
-      const tj = thresh * w;
-      const q = uRe * uRe + uIm * uIm;
-      let nRe = 0;
-      let nIm = 0;
-      // Most entries of a sparse iterate fall below the threshold: no square root for those.
-      if (q > tj * tj) {
-        const mod = Math.sqrt(q);
-        const f = 1 - tj / mod;
-        nRe = f * uRe;
-        nIm = f * uIm;
-        l1 += w * (mod - tj);
-      }
-      next[i] = nRe;
-      next[i + 1] = nIm;
-      if ((nRe !== 0 || nIm !== 0) !== (cRe !== 0 || cIm !== 0)) supportMoves++;
-      const dRe = nRe - cRe;
-      const dIm = nIm - cIm;
-      restartSignal += (zRe - nRe) * dRe + (zIm - nIm) * dIm;
-      stepSq += dRe * dRe + dIm * dIm;
-      normSq += nRe * nRe + nIm * nIm;
+    if (Math.sqrt(sums.stepSq) <= opts.stepTolerance * Math.sqrt(sums.normSq)) {
+      stoppedBy = 'step';
+      break;
     }
     // Rotate: prev ← cur, cur ← next, and the freed buffer becomes the next output.
     const spare = prev;
@@ -170,23 +158,110 @@ export function fista(
     const gSpare = gPrev;
     gPrev = gCur;
     gCur = gSpare;
-
-    residualAndGap(A, y, cur, l1, axCur, r, gCur, opts, evaluation);
+    residualAndObjective(A, y, cur, sums.l1, axCur, r, gCur, opts, evaluation);
     iterations++;
     // Restart when the momentum points against the step just taken.
-    t = opts.restart && restartSignal > 0 ? 1 : tNext;
-    if (supportMoves === 0) stableFor++;
+    t = opts.restart && sums.restartSignal > 0 ? 1 : tNext;
+    if (!sums.supportChanged) stableFor++;
     else {
       stableFor = 0;
       finishTried = false;
     }
-    if (evaluation.relGap > opts.tolerance && Math.sqrt(stepSq) <= opts.stepTolerance * Math.sqrt(normSq)) {
-      stoppedBy = 'step';
-      break;
-    }
   }
   x.set(cur);
   return { iterations, relGap: evaluation.relGap, stoppedBy, finishIterations, gram: finishState.gram };
+}
+
+/** What one proximal-gradient pass measures on its way. */
+interface StepSums {
+  /** Re⟨z − x_next, x_next − x⟩: positive means the momentum works against the step. */
+  restartSignal: number;
+  stepSq: number;
+  normSq: number;
+  /** Σ w |x_next|. */
+  l1: number;
+  nonzeros: number;
+  indexSum: number;
+  supportChanged: boolean;
+  /** max_j |g_j|/w_j of the gradient the pass read (the dual norm that scales the dual point). */
+  dualNorm: number;
+}
+
+/**
+ * next ← soft(z − step·g_z, step·λ·w) with z = cur + β(cur − prev) and g_z by linearity from
+ * gCur and gPrev. Its own function so that the engine optimises this loop on its own.
+ */
+function proxGradientStep(
+  cur: Float64Array,
+  prev: Float64Array,
+  gCur: Float64Array,
+  gPrev: Float64Array,
+  next: Float64Array,
+  beta: number,
+  step: number,
+  thresh: number,
+  weights: Float64Array | null,
+  sums: StepSums,
+): void {
+  let restartSignal = 0;
+  let stepSq = 0;
+  let normSq = 0;
+  let l1 = 0;
+  let nonzeros = 0;
+  let indexSum = 0;
+  let dualSq = 0;
+  for (let j = 0, i = 0; i < cur.length; j++, i += 2) {
+    const cRe = cur[i]!;
+    const cIm = cur[i + 1]!;
+    const zRe = cRe + beta * (cRe - prev[i]!);
+    const zIm = cIm + beta * (cIm - prev[i + 1]!);
+    const hRe = gCur[i]!;
+    const hIm = gCur[i + 1]!;
+    const gRe = hRe + beta * (hRe - gPrev[i]!);
+    const gIm = hIm + beta * (hIm - gPrev[i + 1]!);
+    const uRe = zRe - step * gRe;
+    const uIm = zIm - step * gIm;
+    const w = weights === null ? 1 : weights[j]!;
+    const h = (hRe * hRe + hIm * hIm) / (w * w);
+    if (h > dualSq) dualSq = h;
+    const tj = thresh * w;
+    const q = uRe * uRe + uIm * uIm;
+    if (q > tj * tj) {
+      const mod = Math.sqrt(q);
+      const f = 1 - tj / mod;
+      const nRe = f * uRe;
+      const nIm = f * uIm;
+      next[i] = nRe;
+      next[i + 1] = nIm;
+      l1 += w * (mod - tj);
+      nonzeros++;
+      indexSum += j;
+      const dRe = nRe - cRe;
+      const dIm = nIm - cIm;
+      restartSignal += (zRe - nRe) * dRe + (zIm - nIm) * dIm;
+      stepSq += dRe * dRe + dIm * dIm;
+      normSq += nRe * nRe + nIm * nIm;
+    } else {
+      // Most entries of a sparse iterate land here: zero, and they add to the sums only if
+      // they were nonzero before (no square root, nothing to accumulate otherwise).
+      next[i] = 0;
+      next[i + 1] = 0;
+      if (cRe !== 0 || cIm !== 0) {
+        restartSignal -= zRe * cRe + zIm * cIm;
+        stepSq += cRe * cRe + cIm * cIm;
+      }
+    }
+  }
+  sums.dualNorm = Math.sqrt(dualSq);
+  sums.restartSignal = restartSignal;
+  sums.stepSq = stepSq;
+  sums.normSq = normSq;
+  sums.l1 = l1;
+  // Count and index sum of the support: equal for two iterates means (almost surely) the same
+  // support; a rare false match only brings a finish attempt forward, which is verified anyway.
+  sums.supportChanged = nonzeros !== sums.nonzeros || indexSum !== sums.indexSum;
+  sums.nonzeros = nonzeros;
+  sums.indexSum = indexSum;
 }
 
 interface FinishState {
@@ -228,7 +303,7 @@ function finishOnSupport(
   const candidateAx = ws.rowVector('fista.finishAx');
   const candidateG = ws.colVector('fista.finishG');
   const r = ws.rowVector('fista.r');
-  const trial: Evaluation = { relGap: Infinity, primal: Infinity };
+  const trial: Evaluation = { relGap: Infinity, primal: Infinity, residualSq: 0, yDotResidual: 0 };
   const xs = ws.colVector('fista.finishXs');
   const gs = ws.colVector('fista.finishGs');
   const rounds = gram === undefined ? FINISH_ROUNDS : 1;
@@ -260,7 +335,7 @@ function finishOnSupport(
       candidate[2 * j + 1] = im;
       l1 += (opts.weights === null ? 1 : opts.weights[j]!) * Math.sqrt(re * re + im * im);
     }
-    residualAndGap(A, y, candidate, l1, candidateAx, r, candidateG, opts, trial);
+    evaluate(A, y, candidate, l1, candidateAx, r, candidateG, opts, trial);
     state.iterations += 1;
     if (!(trial.primal < evaluation.primal)) break;
     x.set(candidate);
@@ -268,6 +343,8 @@ function finishOnSupport(
     g.set(candidateG);
     evaluation.relGap = trial.relGap;
     evaluation.primal = trial.primal;
+    evaluation.residualSq = trial.residualSq;
+    evaluation.yDotResidual = trial.yDotResidual;
     state.accepted = true;
     if (trial.relGap <= opts.tolerance) break;
   }
@@ -311,12 +388,10 @@ function newtonStepByCg(
 }
 
 /**
- * Computes ax = A x, r = A x − y, g = Aᴴ r, and the relative duality gap and primal objective
- * at x (into `out`).
- * Dual point u = s·(y − A x) with s = min(1, λ / max_j |g_j|/w_j), so that |(Aᴴu)_j| ≤ λ w_j;
- * D(u) = ½‖y‖² − ½‖y − u‖² = −s Re⟨y, r⟩ − ½ s²‖r‖².
+ * Computes ax = A x, r = A x − y, g = Aᴴ r, the primal objective and the parts of the dual
+ * objective at x (into `out`); completeGap adds the duality gap once max_j |g_j|/w_j is known.
  */
-function residualAndGap(
+function residualAndObjective(
   A: LinearOperator,
   y: Float64Array,
   x: Float64Array,
@@ -337,10 +412,34 @@ function residualAndGap(
     yDotR += y[i]! * ri;
   }
   A.adjoint(r, g);
-  const dualNorm = weightedMaxModulus(g, opts.weights);
-  const s = dualNorm > opts.lambda ? opts.lambda / dualNorm : 1;
-  const primal = 0.5 * rNormSq + opts.lambda * weightedL1;
-  const dual = -s * yDotR - 0.5 * s * s * rNormSq;
-  out.primal = primal;
-  out.relGap = primal > 0 ? Math.max(0, primal - dual) / primal : 0;
+  out.residualSq = rNormSq;
+  out.yDotResidual = yDotR;
+  out.primal = 0.5 * rNormSq + opts.lambda * weightedL1;
+  out.relGap = Infinity;
+}
+
+/**
+ * Relative duality gap: dual point u = s·(y − A x) with s = min(1, λ / max_j |g_j|/w_j), so that
+ * |(Aᴴu)_j| ≤ λ w_j; D(u) = ½‖y‖² − ½‖y − u‖² = −s Re⟨y, r⟩ − ½ s²‖r‖².
+ */
+function completeGap(e: Evaluation, dualNorm: number, lambda: number): void {
+  const s = dualNorm > lambda ? lambda / dualNorm : 1;
+  const dual = -s * e.yDotResidual - 0.5 * s * s * e.residualSq;
+  e.relGap = e.primal > 0 ? Math.max(0, e.primal - dual) / e.primal : 0;
+}
+
+/** A full evaluation of x, dual norm included (for points off the main iteration). */
+function evaluate(
+  A: LinearOperator,
+  y: Float64Array,
+  x: Float64Array,
+  weightedL1: number,
+  ax: Float64Array,
+  r: Float64Array,
+  g: Float64Array,
+  opts: FistaOptions,
+  out: Evaluation,
+): void {
+  residualAndObjective(A, y, x, weightedL1, ax, r, g, opts, out);
+  completeGap(out, weightedMaxModulus(g, opts.weights), opts.lambda);
 }
