@@ -12,9 +12,13 @@ export interface DaemonCounters {
   resultsMissed: number;
   /** Connections the daemon closed on its own (slow subscribers, dead peers). */
   connectionsClosed: number;
+  /** Subscriber connections it closed, by reason (its `reason` label: no_pong, hard_cap, fell_behind, …). */
+  watchClosures: Record<string, number>;
 }
 
-const NAMES: Record<keyof DaemonCounters, string> = {
+type CounterName = Exclude<keyof DaemonCounters, 'watchClosures'>;
+
+const NAMES: Record<CounterName, string> = {
   received: 'sparsewire_frames_received_total',
   solved: 'sparsewire_frames_solved_total',
   refused: 'sparsewire_frames_refused_total',
@@ -37,10 +41,23 @@ export function sumSamples(text: string): Map<string, number> {
   return sums;
 }
 
+/** Values of one metric's samples whose labels include `where`, keyed by the value of label `by`. */
+export function samplesByLabel(text: string, metric: string, by: string, where: Record<string, string> = {}): Record<string, number> {
+  const out: Record<string, number> = {};
+  for (const line of text.split('\n')) {
+    const match = /^([a-zA-Z_:][a-zA-Z0-9_:]*)\{(.*)\}\s+(\S+)/.exec(line);
+    if (!match || match[1] !== metric) continue;
+    const labels = Object.fromEntries([...match[2]!.matchAll(/([a-zA-Z_][a-zA-Z0-9_]*)="((?:[^"\\]|\\.)*)"/g)].map((m) => [m[1]!, m[2]!]));
+    if (Object.entries(where).some(([k, v]) => labels[k] !== v) || labels[by] === undefined) continue;
+    out[labels[by]!] = (out[labels[by]!] ?? 0) + Number(match[3]);
+  }
+  return out;
+}
+
 export function countersFromText(text: string): DaemonCounters {
   const sums = sumSamples(text);
-  const out = {} as DaemonCounters;
-  for (const key of Object.keys(NAMES) as Array<keyof DaemonCounters>) out[key] = sums.get(NAMES[key]) ?? 0;
+  const out = { watchClosures: samplesByLabel(text, NAMES.connectionsClosed, 'reason', { endpoint: 'watch' }) } as DaemonCounters;
+  for (const key of Object.keys(NAMES) as CounterName[]) out[key] = sums.get(NAMES[key]) ?? 0;
   return out;
 }
 
@@ -52,7 +69,12 @@ export async function readDaemonCounters(baseUrl: string, token?: string): Promi
 }
 
 export function counterDelta(after: DaemonCounters, before: DaemonCounters): DaemonCounters {
-  const out = {} as DaemonCounters;
-  for (const key of Object.keys(NAMES) as Array<keyof DaemonCounters>) out[key] = after[key] - before[key];
+  const watchClosures: Record<string, number> = {};
+  for (const [reason, n] of Object.entries(after.watchClosures)) {
+    const d = n - (before.watchClosures[reason] ?? 0);
+    if (d > 0) watchClosures[reason] = d;
+  }
+  const out = { watchClosures } as DaemonCounters;
+  for (const key of Object.keys(NAMES) as CounterName[]) out[key] = after[key] - before[key];
   return out;
 }

@@ -44,8 +44,8 @@ export interface SlowSubscriberStep {
   results: number;
   missed_behind: number;
   missed_dropped: number;
-  /** Set once the daemon has closed this subscriber (disconnect policy or hard cap). */
-  closed_by_daemon: string | null;
+  /** Times the daemon closed this subscriber during the step (it reconnects each time). */
+  closed_by_daemon: number;
 }
 
 export interface StepResult {
@@ -92,6 +92,7 @@ interface Snapshot {
   refusedByReason: Map<string, number>;
   reference: SubscriberCounts;
   slow: SubscriberCounts[];
+  slowClosures: number[];
   failures: number;
 }
 
@@ -101,6 +102,7 @@ function snapshot(s: LoadSession): Snapshot {
     refusedByReason: new Map(s.producers.refusedByReason),
     reference: { ...s.reference.counts },
     slow: s.slow.map((x) => ({ ...x.counts })),
+    slowClosures: s.slow.map((x) => x.closedByDaemon.length),
     failures: failureCount(s),
   };
 }
@@ -231,7 +233,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
         results: d.results,
         missed_behind: d.missedBehind,
         missed_dropped: d.missedDropped,
-        closed_by_daemon: x.closedByDaemon ? `${x.closedByDaemon.code} ${x.closedByDaemon.reason}` : null,
+        closed_by_daemon: after.slowClosures[i]! - before.slowClosures[i]!,
       };
     }),
     drained,

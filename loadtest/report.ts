@@ -54,6 +54,13 @@ function plottedSteps(s: ScenarioReport): StepResult[] {
   return [...s.steps, ...(s.at_70pct ? [s.at_70pct] : []), ...(s.overload ? [s.overload] : [])].filter((st) => st.latency_ms.count > 0);
 }
 
+/** "a 2×, b" from ["a", "b", "a"]. */
+function countedList(items: string[]): string {
+  const counts = new Map<string, number>();
+  for (const item of items) counts.set(item, (counts.get(item) ?? 0) + 1);
+  return [...counts].map(([item, n]) => (n > 1 ? `${item} ${n}×` : item)).join(', ');
+}
+
 export function markdownTable(headers: string[], rows: Array<Array<string | number>>): string {
   const line = (cells: Array<string | number>) => `| ${cells.map((c) => String(c).replace(/\|/g, '\\|')).join(' | ')} |`;
   return [line(headers), line(headers.map(() => '---')), ...rows.map(line)].join('\n');
@@ -136,7 +143,7 @@ function scenarioMarkdown(s: ScenarioReport): string {
       '',
       markdownTable(
         ['step', ...steps[0]!.slow_subscribers.map((x, i) => `slow ${i + 1} (${x.policy}): got / missed while behind`)],
-        steps.map((st) => [st.label, ...st.slow_subscribers.map((x) => `${x.results} / ${x.missed_behind}${x.closed_by_daemon ? ` (closed: ${x.closed_by_daemon})` : ''}`)]),
+        steps.map((st) => [st.label, ...st.slow_subscribers.map((x) => `${x.results} / ${x.missed_behind}${x.closed_by_daemon > 0 ? ` (closed ${x.closed_by_daemon}×)` : ''}`)]),
       ),
       '',
     );
@@ -148,8 +155,24 @@ function scenarioMarkdown(s: ScenarioReport): string {
       '',
       markdownTable(
         ['slow subscriber', 'results', 'missed while behind', 'dropped upstream', 'all accounted for', 'closed by the daemon'],
-        s.slow_subscribers.map((x, i) => [`${i + 1} (${x.policy})`, x.results, x.missed_behind, x.missed_dropped, x.accounted ? 'yes' : 'no', x.closed_by_daemon ?? 'no']),
+        s.slow_subscribers.map((x, i) => [
+          `${i + 1} (${x.policy})`,
+          x.results,
+          x.missed_behind,
+          x.missed_dropped,
+          x.closed_by_daemon.length > 0 ? '– (was closed)' : x.accounted ? 'yes' : 'no',
+          x.closed_by_daemon.length > 0 ? `${x.closed_by_daemon.length}× (${countedList(x.closed_by_daemon)}), reconnected` : 'no',
+        ]),
       ),
+      '',
+    );
+  }
+  const closures = a.daemon_counters ? Object.entries(a.daemon_counters.watchClosures) : [];
+  if (closures.length > 0) {
+    out.push(
+      `The daemon closed subscriber connections (its reasons): ${closures.map(([r, n]) => `${r} ${n}`).join(', ')}. ` +
+        '`no_pong`: the peer did not answer a ping within one heartbeat interval, which a reader whose backlog in the socket buffers takes longer than that to read cannot do; ' +
+        '`hard_cap`, `fell_behind`, `too_many_notices`: the outbox limits and the subscriber\'s when_behind policy.',
       '',
     );
   }

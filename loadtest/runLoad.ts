@@ -89,8 +89,10 @@ export interface SlowSubscriberTotals {
   missed_dropped: number;
   /** Frames the daemon accepted (solved + dropped) during the scenario. */
   accepted: number;
+  /** Every accepted frame reached it (only meaningful when it was never closed). */
   accounted: boolean;
-  closed_by_daemon: string | null;
+  /** Closures by the daemon as the subscriber saw them ("code reason"), each followed by a reconnect. */
+  closed_by_daemon: string[];
 }
 
 export interface ScenarioReport {
@@ -272,7 +274,7 @@ const SLOW_CATCH_UP_MS = 10_000;
 async function slowTotals(session: LoadSession, accepted: number, waitMs: number): Promise<SlowSubscriberTotals[]> {
   const seen = (x: LoadSession['slow'][number]) => x.counts.results + x.counts.missedBehind + x.counts.missedDropped;
   const deadline = performance.now() + waitMs;
-  while (performance.now() < deadline && session.slow.some((x) => x.closedByDaemon === null && seen(x) < accepted)) {
+  while (performance.now() < deadline && session.slow.some((x) => x.closedByDaemon.length === 0 && seen(x) < accepted)) {
     await new Promise((r) => setTimeout(r, 50));
   }
   return session.slow.map((x) => ({
@@ -281,8 +283,8 @@ async function slowTotals(session: LoadSession, accepted: number, waitMs: number
     missed_behind: x.counts.missedBehind,
     missed_dropped: x.counts.missedDropped,
     accepted,
-    accounted: seen(x) === accepted,
-    closed_by_daemon: x.closedByDaemon ? `${x.closedByDaemon.code} ${x.closedByDaemon.reason}` : null,
+    accounted: x.closedByDaemon.length === 0 && seen(x) === accepted,
+    closed_by_daemon: x.closedByDaemon.map((c) => `${c.code}${c.reason ? ` ${c.reason}` : ''}`),
   }));
 }
 

@@ -72,40 +72,48 @@ export class ReferenceSubscriber {
   }
 }
 
+/** How long a slow subscriber waits before it reconnects after the daemon closed it. */
+const RECONNECT_DELAY_MS = 1000;
+
 /**
  * A deliberately slow subscriber: it asks for the heavy parts of every result (coefficients and
  * the frame's measurements) and reads its socket at a fixed byte rate, pausing the socket when
  * it is ahead of its allowance — so the daemon sees a consumer whose TCP window stays full.
+ * When the daemon closes it (its when_behind policy, the outbox's hard cap, or a ping it could not
+ * answer in time behind its backlog) it reconnects a second later, as a dashboard would.
  */
 export class SlowSubscriber {
   readonly counts = emptyCounts();
   readonly failures = new FailureLog();
-  /** Closed by the daemon (its when_behind policy, or the hard cap). */
-  closedByDaemon: { code: number; reason: string } | null = null;
+  /** Closures by the daemon, in order (code and reason as the client saw them). */
+  readonly closedByDaemon: Array<{ code: number; reason: string }> = [];
+  #ws: WebSocket | null = null;
   #closing = false;
-  #startedAt = performance.now();
+  #readBytes = 0;
+  #readingSince = 0;
   #resumeTimer: NodeJS.Timeout | undefined;
+  #reconnectTimer: NodeJS.Timeout | undefined;
 
   private constructor(
-    private readonly ws: WebSocket,
+    private readonly options: ConnectionOptions,
+    private readonly pattern: string,
     readonly policy: BehindPolicy,
     private readonly bytesPerSecond: number,
-  ) {
-    ws.on('message', (data: Buffer) => this.#receive(data));
-    ws.on('close', (code, reason) => {
-      if (!this.#closing) this.closedByDaemon = { code, reason: reason.toString() };
-    });
-    ws.on('error', (err) => this.failures.add(`slow subscriber socket error: ${err.message}`));
-  }
+  ) {}
 
   static async open(options: ConnectionOptions, pattern: string, policy: BehindPolicy, bytesPerSecond: number): Promise<SlowSubscriber> {
-    const headers: Record<string, string> = options.token ? { authorization: `Bearer ${options.token}` } : {};
-    const ws = new WebSocket(endpointUrl(options.url, '/v1/watch'), { headers, perMessageDeflate: false, maxPayload: MAX_MESSAGE_BYTES });
+    const s = new SlowSubscriber(options, pattern, policy, bytesPerSecond);
+    await s.#connect();
+    return s;
+  }
+
+  async #connect(): Promise<void> {
+    const headers: Record<string, string> = this.options.token ? { authorization: `Bearer ${this.options.token}` } : {};
+    const ws = new WebSocket(endpointUrl(this.options.url, '/v1/watch'), { headers, perMessageDeflate: false, maxPayload: MAX_MESSAGE_BYTES });
     await new Promise<void>((resolve, reject) => {
       ws.once('open', () => resolve());
       ws.once('error', reject);
     });
-    const s = new SlowSubscriber(ws, policy, bytesPerSecond);
     const subscribed = new Promise<void>((resolve, reject) => {
       const onMessage = (data: Buffer) => {
         const msg = decode(data);
@@ -116,14 +124,27 @@ export class SlowSubscriber {
       };
       ws.on('message', onMessage);
     });
-    ws.send(encode({ v: 1, type: 'subscribe', ref: 'slow', streams: pattern, want: ['coefficients', 'measurements', 'alerts'], when_behind: policy }));
+    ws.on('message', (data: Buffer) => this.#receive(ws, data));
+    ws.on('error', (err) => this.failures.add(`slow subscriber socket error: ${err.message}`));
+    ws.on('close', (code, reason) => {
+      clearTimeout(this.#resumeTimer);
+      this.#resumeTimer = undefined;
+      if (this.#closing) return;
+      this.closedByDaemon.push({ code, reason: reason.toString() });
+      this.#reconnectTimer = setTimeout(() => {
+        this.#connect().catch((err: Error) => this.failures.add(`slow subscriber could not reconnect: ${err.message}`));
+      }, RECONNECT_DELAY_MS);
+    });
+    ws.send(encode({ v: 1, type: 'subscribe', ref: 'slow', streams: this.pattern, want: ['coefficients', 'measurements', 'alerts'], when_behind: this.policy }));
     await subscribed;
-    s.#startedAt = performance.now();
-    return s;
+    this.#ws = ws;
+    this.#readBytes = 0;
+    this.#readingSince = performance.now();
   }
 
-  #receive(data: Buffer): void {
+  #receive(ws: WebSocket, data: Buffer): void {
     this.counts.bytes += data.byteLength;
+    this.#readBytes += data.byteLength;
     let msg: DaemonToSubscriber;
     try {
       msg = decode(data) as DaemonToSubscriber;
@@ -137,24 +158,26 @@ export class SlowSubscriber {
     else if (msg.type === 'stream_event') this.counts.streamEvents++;
     else if (msg.type === 'error') this.failures.add(`daemon error to a slow subscriber: ${msg.code}: ${msg.detail}`);
     // Ahead of the allowance: stop reading until the allowance catches up.
-    const allowed = ((performance.now() - this.#startedAt) / 1000) * this.bytesPerSecond;
-    const ahead = this.counts.bytes - allowed;
-    if (ahead > 0 && this.#resumeTimer === undefined) {
-      this.ws.pause();
+    const allowed = ((performance.now() - this.#readingSince) / 1000) * this.bytesPerSecond;
+    const ahead = this.#readBytes - allowed;
+    if (ahead > 0 && this.#resumeTimer === undefined && ws === this.#ws) {
+      ws.pause();
       this.#resumeTimer = setTimeout(() => {
         this.#resumeTimer = undefined;
-        if (!this.#closing) this.ws.resume();
+        if (!this.#closing && ws.readyState === WebSocket.OPEN) ws.resume();
       }, (1000 * ahead) / this.bytesPerSecond);
     }
   }
 
   async close(): Promise<void> {
     this.#closing = true;
-    if (this.#resumeTimer) clearTimeout(this.#resumeTimer);
-    if (this.ws.readyState === WebSocket.CLOSED) return;
+    clearTimeout(this.#resumeTimer);
+    clearTimeout(this.#reconnectTimer);
+    const ws = this.#ws;
+    if (ws === null || ws.readyState === WebSocket.CLOSED) return;
     await new Promise<void>((resolve) => {
-      this.ws.once('close', () => resolve());
-      this.ws.terminate();
+      ws.once('close', () => resolve());
+      ws.terminate();
     });
   }
 }

@@ -109,7 +109,7 @@ describe('a whole run at a tiny fixed load', () => {
     expect(report.figures.rss_mb_3_streams).toBeGreaterThan(0);
     // The slow subscriber, once caught up, has every accepted frame as a result or inside a notice.
     const [slow] = scenario!.slow_subscribers;
-    expect(slow).toMatchObject({ policy: 'keep_latest', accepted: a.solved + a.dropped, accounted: true, closed_by_daemon: null });
+    expect(slow).toMatchObject({ policy: 'keep_latest', accepted: a.solved + a.dropped, accounted: true, closed_by_daemon: [] });
     expect(slow!.results + slow!.missed_behind + slow!.missed_dropped).toBe(slow!.accepted);
   });
 

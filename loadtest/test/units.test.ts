@@ -2,7 +2,7 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { binToFloat64, decode, encode, float64ToBin, streamNameProblem } from '../../protocol/index.js';
 import { mixtureMedian, quantile } from '../bareSolve.js';
-import { countersFromText, sumSamples } from '../daemonCounters.js';
+import { countersFromText, samplesByLabel, sumSamples } from '../daemonCounters.js';
 import { LatencyRecorder } from '../latency.js';
 import { packFrame } from '../loadProducers.js';
 import { cpuSecondsFromStat, kilobytesField, sampleProcess } from '../procStats.js';
@@ -102,7 +102,17 @@ describe('daemon counters from the metrics text', () => {
       '',
     ].join('\n');
     expect(sumSamples(text).get('sparsewire_solve_seconds_bucket')).toBe(100);
-    expect(countersFromText(text)).toEqual({ received: 120, solved: 100, refused: 9, dropped: 11, resultsMissed: 0, connectionsClosed: 0 });
+    expect(countersFromText(text)).toEqual({ received: 120, solved: 100, refused: 9, dropped: 11, resultsMissed: 0, connectionsClosed: 0, watchClosures: {} });
+  });
+
+  it('splits closed connections by reason for subscriber connections only', () => {
+    const text = [
+      'sparsewire_connections_closed_total{endpoint="watch",reason="no_pong"} 3',
+      'sparsewire_connections_closed_total{endpoint="produce",reason="no_pong"} 1',
+      'sparsewire_connections_closed_total{endpoint="watch",reason="hard_cap"} 2',
+    ].join('\n');
+    expect(samplesByLabel(text, 'sparsewire_connections_closed_total', 'reason', { endpoint: 'watch' })).toEqual({ no_pong: 3, hard_cap: 2 });
+    expect(countersFromText(text)).toMatchObject({ connectionsClosed: 6, watchClosures: { no_pong: 3, hard_cap: 2 } });
   });
 });
 
