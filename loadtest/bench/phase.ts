@@ -156,6 +156,7 @@ interface Curve {
 
 interface MeasuredFamily {
   description: string;
+  amplitudes: 'real' | 'complex';
   delta: number[];
   m: number[];
   n: number[];
@@ -166,6 +167,7 @@ interface MeasuredFamily {
 function measureFamily(family: FamilySpec, draws: number): MeasuredFamily {
   const out: MeasuredFamily = {
     description: family.description,
+    amplitudes: family.complex ? 'complex' : 'real',
     delta: [],
     m: [],
     n: [],
@@ -262,7 +264,7 @@ function phasePlot(families: Record<string, MeasuredFamily>): string {
   const W = 640;
   const H = 440;
   const left = 60;
-  const right = 170;
+  const right = 220;
   const top = 30;
   const bottom = 50;
   const px = (d: number): number => left + d * (W - left - right);
@@ -295,7 +297,7 @@ function phasePlot(families: Record<string, MeasuredFamily>): string {
       const dash = method === 'l1' ? '' : ' stroke-dasharray="6 4"';
       parts.push(`<polyline points="${line}" fill="none" stroke="${color}" stroke-width="2"${dash}/>`);
       parts.push(`<line x1="${W - right + 14}" y1="${legendY}" x2="${W - right + 44}" y2="${legendY}" stroke="${color}" stroke-width="2"${dash}/>`);
-      parts.push(`<text x="${W - right + 50}" y="${legendY + 4}">${name}, ${method === 'l1' ? 'l1' : 'reweighted'}</text>`);
+      parts.push(`<text x="${W - right + 50}" y="${legendY + 4}">${name} (${f.amplitudes}), ${method === 'l1' ? 'l1' : 'reweighted'}</text>`);
       legendY += 20;
     }
   }
