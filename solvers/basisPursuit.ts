@@ -40,6 +40,7 @@ const POLISH_FEASIBILITY = 1e-10;
 const CANDIDATE_THRESHOLD = 1e-6;
 /** Relative size below which a least-squares coefficient is taken for zero. */
 const PRUNE_THRESHOLD = 1e-9;
+/** Scale of the starting primal weight (see primalWeight). */
 const INITIAL_WEIGHT_SCALE = 0.3;
 /** Relative stationarity of the least-squares fit on the candidate support. */
 const POLISH_FIT_TOLERANCE = 1e-13;

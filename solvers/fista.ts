@@ -16,8 +16,8 @@ import type { Workspace } from './workspace.js';
  * linearity from the two latest iterates. So each iteration costs one apply and one adjoint,
  * and the certificate belongs to the very iterate that is returned.
  *
- * Finish on the support: once the support of the iterates has stood still for a few
- * iterations (and at once for a warm start, whose support comes from the previous frame), the
+ * Finish on the support: once the support of the iterates has stood still for one iteration
+ * (and at once for a warm start, whose support comes from the previous frame), the
  * LASSO optimality condition restricted to that support S,
  *   F(x_S) = A_Sᴴ(A_S x_S − y) + λ w_S ∘ x_S/|x_S| = 0,
  * is solved by Newton's method: each step solves (A_SᴴA_S + B) δ = −F, where B, the derivative of
@@ -58,8 +58,10 @@ export interface FistaOutcome {
   gram: SupportGram | undefined;
 }
 
-/** An iterate's evaluation: primal objective P = ½‖A x − y‖² + λ Σ w|x|, the parts of the dual
- * objective, and (once the dual norm is known) the relative duality gap. */
+/**
+ * An iterate's evaluation: primal objective P = ½‖A x − y‖² + λ Σ w|x|, the parts of the dual
+ * objective, and (once the dual norm is known) the relative duality gap.
+ */
 interface Evaluation {
   relGap: number;
   primal: number;

@@ -80,6 +80,7 @@ export function lassoMethod(
     level = Math.max(start, target);
   }
   let used = 0;
+  let finishIterations = 0;
   let relGap = Infinity;
   let gram = warm?.gram;
   let reachedTarget = false;
@@ -102,6 +103,7 @@ export function lassoMethod(
       ws,
     );
     used += out.iterations;
+    finishIterations += out.finishIterations;
     relGap = out.relGap;
     gram = out.gram;
     if (final) {
@@ -138,6 +140,7 @@ export function lassoMethod(
         ws,
       );
       used += out.iterations;
+      finishIterations += out.finishIterations;
       relGap = out.relGap;
       gram = out.gram;
       rounds++;
@@ -145,6 +148,7 @@ export function lassoMethod(
   }
   evidence['lambda'] = target;
   evidence['duality_gap'] = relGap;
+  evidence['finish_iterations'] = finishIterations;
   return {
     iterations: used,
     certificate: { kind: 'duality_gap', value: relGap },
