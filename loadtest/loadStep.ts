@@ -125,7 +125,8 @@ function outstanding(s: LoadSession): { notices: number; acks: number } {
   };
 }
 
-async function waitDrained(s: LoadSession, timeoutMs: number): Promise<boolean> {
+/** Resolves true once every frame sent has been answered in both views, false at the timeout. */
+export async function waitDrained(s: LoadSession, timeoutMs: number): Promise<boolean> {
   const deadline = performance.now() + timeoutMs;
   for (;;) {
     const o = outstanding(s);

@@ -5,7 +5,7 @@ import { measureBareSolve, mixtureMedian, type BareSolve } from './bareSolve.js'
 import { counterDelta, type DaemonCounters } from './daemonCounters.js';
 import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
 import { closeSession, openSession } from './loadSession.js';
-import { runStep, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
+import { runStep, waitDrained, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
 import { describeMachine, finishMachine, type MachineDescription } from './machine.js';
 import { canSampleProcesses } from './procStats.js';
 import {
@@ -250,6 +250,8 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     const countersAtStart = await session.readCounters();
     const meanBare = bare.reduce((sum, b, i) => sum + shares[i]! * b.meanMs, 0);
     await runPhases(session, report, settings, deadline, meanBare);
+    // A step that ran out of drain time leaves frames in flight: give them one more, longer wait.
+    if (!(await waitDrained(session, FINAL_DRAIN_MS))) problems.push(`frames still unanswered ${FINAL_DRAIN_MS / 1000} s after the last step`);
     report.accounting = finalAccounting(session, countersAtStart, await session.readCounters(), settings.target === null);
     if (!report.accounting.ok) problems.push('accounting failed: see the accounting table');
     const usage = session.daemonSampler?.window();
@@ -267,6 +269,9 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
   }
   return report;
 }
+
+/** Longest wait at the end of a scenario for frames still in flight. */
+const FINAL_DRAIN_MS = 60_000;
 
 /** Longest wait at the end of a scenario for the slow subscribers to catch up. */
 const SLOW_CATCH_UP_MS = 10_000;
