@@ -14,9 +14,13 @@ export interface DaemonCounters {
   connectionsClosed: number;
   /** Subscriber connections it closed, by reason (its `reason` label: no_pong, hard_cap, fell_behind, …). */
   watchClosures: Record<string, number>;
+  /** Its own receipt-to-publication latency histogram: cumulative count per bucket bound `le` (seconds). */
+  latencyBuckets: Record<string, number>;
 }
 
-type CounterName = Exclude<keyof DaemonCounters, 'watchClosures'>;
+type CounterName = Exclude<keyof DaemonCounters, 'watchClosures' | 'latencyBuckets'>;
+
+const LATENCY_BUCKETS = 'sparsewire_frame_latency_seconds_bucket';
 
 const NAMES: Record<CounterName, string> = {
   received: 'sparsewire_frames_received_total',
@@ -56,7 +60,10 @@ export function samplesByLabel(text: string, metric: string, by: string, where: 
 
 export function countersFromText(text: string): DaemonCounters {
   const sums = sumSamples(text);
-  const out = { watchClosures: samplesByLabel(text, NAMES.connectionsClosed, 'reason', { endpoint: 'watch' }) } as DaemonCounters;
+  const out = {
+    watchClosures: samplesByLabel(text, NAMES.connectionsClosed, 'reason', { endpoint: 'watch' }),
+    latencyBuckets: samplesByLabel(text, LATENCY_BUCKETS, 'le'),
+  } as DaemonCounters;
   for (const key of Object.keys(NAMES) as CounterName[]) out[key] = sums.get(NAMES[key]) ?? 0;
   return out;
 }
@@ -69,12 +76,35 @@ export async function readDaemonCounters(baseUrl: string, token?: string): Promi
 }
 
 export function counterDelta(after: DaemonCounters, before: DaemonCounters): DaemonCounters {
-  const watchClosures: Record<string, number> = {};
-  for (const [reason, n] of Object.entries(after.watchClosures)) {
-    const d = n - (before.watchClosures[reason] ?? 0);
-    if (d > 0) watchClosures[reason] = d;
-  }
-  const out = { watchClosures } as DaemonCounters;
+  const out = {
+    watchClosures: recordDelta(after.watchClosures, before.watchClosures, false),
+    latencyBuckets: recordDelta(after.latencyBuckets, before.latencyBuckets, true),
+  } as DaemonCounters;
   for (const key of Object.keys(NAMES) as CounterName[]) out[key] = after[key] - before[key];
   return out;
+}
+
+function recordDelta(after: Record<string, number>, before: Record<string, number>, keepZeros: boolean): Record<string, number> {
+  const out: Record<string, number> = {};
+  for (const [key, n] of Object.entries(after)) {
+    const d = n - (before[key] ?? 0);
+    if (d > 0 || keepZeros) out[key] = d;
+  }
+  return out;
+}
+
+/**
+ * The bucket bound (in ms) at or below which a fraction `q` of the observations fall: an upper
+ * bound of the q-quantile, as precise as the buckets (Prometheus histograms are cumulative per `le`).
+ * Undefined when the histogram is empty or the quantile lies in the +Inf bucket.
+ */
+export function bucketQuantileMs(buckets: Record<string, number>, q: number): number | undefined {
+  const bounds = Object.entries(buckets)
+    .map(([le, count]) => ({ le: le === '+Inf' ? Number.POSITIVE_INFINITY : Number(le), count }))
+    .filter((b) => !Number.isNaN(b.le))
+    .sort((a, b) => a.le - b.le);
+  const total = bounds.at(-1)?.count ?? 0;
+  if (total <= 0) return undefined;
+  const hit = bounds.find((b) => b.count >= q * total);
+  return hit && Number.isFinite(hit.le) ? hit.le * 1000 : undefined;
 }

@@ -1,4 +1,4 @@
-import { counterDelta, type DaemonCounters } from './daemonCounters.js';
+import { bucketQuantileMs, counterDelta, type DaemonCounters } from './daemonCounters.js';
 import { LatencyRecorder, type LatencySummary } from './latency.js';
 import type { LoadProducers, ProducerCounts } from './loadProducers.js';
 import type { ProcessSampler, UsageSummary } from './procStats.js';
@@ -66,6 +66,11 @@ export interface StepResult {
   acked: { solved: number; dropped: number; unaccounted: number };
   /** The daemon's metrics counters over the step (null when not readable). */
   daemon_counters: DaemonCounters | null;
+  /**
+   * The daemon's own view of latency, receipt to publication, from its histogram buckets: the
+   * bucket bounds (ms) holding the median and the 99th percentile (null when not readable).
+   */
+  daemon_latency_ms: { p50_at_most: number | null; p99_at_most: number | null } | null;
   refused_by_reason: Record<string, number>;
   loss_fraction: number;
   throughput_fps: number;
@@ -205,6 +210,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     if (d > 0) refusedByReason[reason] = d;
   }
   const latencySummary = latency.summary();
+  const counters = countersBefore && countersAfter ? counterDelta(countersAfter, countersBefore) : null;
   const result: StepResult = {
     label: plan.label,
     offered_fps: plan.offeredFps,
@@ -216,7 +222,10 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     dropped,
     unaccounted: sent - solved - refused - dropped,
     acked: { solved: p.ackedSolved, dropped: p.ackedDropped, unaccounted: sent - refused - p.ackedSolved - p.ackedDropped },
-    daemon_counters: countersBefore && countersAfter ? counterDelta(countersAfter, countersBefore) : null,
+    daemon_counters: counters,
+    daemon_latency_ms: counters
+      ? { p50_at_most: bucketQuantileMs(counters.latencyBuckets, 0.5) ?? null, p99_at_most: bucketQuantileMs(counters.latencyBuckets, 0.99) ?? null }
+      : null,
     refused_by_reason: refusedByReason,
     loss_fraction: sent > 0 ? (refused + dropped) / sent : 0,
     throughput_fps: solved / plan.seconds,

@@ -69,6 +69,7 @@ export function markdownTable(headers: string[], rows: Array<Array<string | numb
 const f1 = (v: number) => v.toFixed(1);
 const f0 = (v: number) => v.toFixed(0);
 const mb = (v: number | null | undefined) => (v === null || v === undefined ? '–' : f0(v));
+const bound = (ms: number | null) => (ms === null ? '∞' : ms < 10 ? String(+ms.toFixed(1)) : f0(ms));
 
 function stepRow(s: StepResult): Array<string | number> {
   return [
@@ -80,6 +81,7 @@ function stepRow(s: StepResult): Array<string | number> {
     f1(s.latency_ms.p99),
     f1(s.latency_ms.p999),
     f1(s.latency_ms.max),
+    s.daemon_latency_ms ? `≤ ${bound(s.daemon_latency_ms.p50_at_most)} / ≤ ${bound(s.daemon_latency_ms.p99_at_most)}` : '–',
     (100 * s.loss_fraction).toFixed(2),
     s.refused,
     s.dropped,
@@ -93,7 +95,7 @@ function stepRow(s: StepResult): Array<string | number> {
 }
 
 const STEP_HEADERS = [
-  'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'loss %', 'refused', 'dropped',
+  'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'in daemon p50 / p99 ms', 'loss %', 'refused', 'dropped',
   'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
 ];
 
@@ -215,6 +217,7 @@ export function reportMarkdown(report: LoadReport): string {
     `- ${(st.slow_subscribers as string[]).length} slow subscribers (${(st.slow_subscribers as string[]).join(', ')}) ask for coefficients and measurements of every result and read ${(Number(st.slow_read_bytes_per_s) / 1024).toFixed(0)} KiB/s.`,
     `- A step passes when p99 ≤ ${st.p99_limit_ms} ms, loss (refused + dropped) ≤ ${(100 * Number(st.loss_limit)).toFixed(2)} %, the timing subscriber never fell behind and every frame was answered within ${Number(st.drain_timeout_ms) / 1000} s after sending stopped. ` +
       'Saturation is the highest offered load that passed: loads grow geometrically until a step fails, then the bracket is narrowed by geometric bisection.',
+    "- `in daemon`: the daemon's own receipt-to-publication latency from its metrics histogram (bucket bounds, so an upper bound of each percentile); the rest of the end-to-end latency is the generator, the two WebSocket hops and the subscriber.",
     "- The bare solve time is the daemon's per-stream solver code (StreamSolver) run in the generator's process on the same frames, warm-started, before the load starts.",
     '- Daemon CPU (% of one core) and resident memory come from /proc/<pid>/stat and /proc/<pid>/status of the daemon process (its worker threads included).',
     '- Accounting: for every step and every scenario, frames sent = solved + refused + dropped with a notice, from the timing subscriber\'s results and `missed` notices, ' +

@@ -2,7 +2,7 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { binToFloat64, decode, encode, float64ToBin, streamNameProblem } from '../../protocol/index.js';
 import { mixtureMedian, quantile } from '../bareSolve.js';
-import { countersFromText, samplesByLabel, sumSamples } from '../daemonCounters.js';
+import { bucketQuantileMs, countersFromText, samplesByLabel, sumSamples } from '../daemonCounters.js';
 import { LatencyRecorder } from '../latency.js';
 import { packFrame } from '../loadProducers.js';
 import { cpuSecondsFromStat, kilobytesField, sampleProcess } from '../procStats.js';
@@ -102,7 +102,7 @@ describe('daemon counters from the metrics text', () => {
       '',
     ].join('\n');
     expect(sumSamples(text).get('sparsewire_solve_seconds_bucket')).toBe(100);
-    expect(countersFromText(text)).toEqual({ received: 120, solved: 100, refused: 9, dropped: 11, resultsMissed: 0, connectionsClosed: 0, watchClosures: {} });
+    expect(countersFromText(text)).toEqual({ received: 120, solved: 100, refused: 9, dropped: 11, resultsMissed: 0, connectionsClosed: 0, watchClosures: {}, latencyBuckets: {} });
   });
 
   it('splits closed connections by reason for subscriber connections only', () => {
@@ -113,6 +113,17 @@ describe('daemon counters from the metrics text', () => {
     ].join('\n');
     expect(samplesByLabel(text, 'sparsewire_connections_closed_total', 'reason', { endpoint: 'watch' })).toEqual({ no_pong: 3, hard_cap: 2 });
     expect(countersFromText(text)).toMatchObject({ connectionsClosed: 6, watchClosures: { no_pong: 3, hard_cap: 2 } });
+  });
+});
+
+describe('quantile bounds from histogram buckets', () => {
+  it('give the smallest bucket bound holding the fraction (cumulative buckets, Prometheus histogram convention)', () => {
+    const buckets = { '0.001': 10, '0.002': 60, '0.004': 98, '0.008': 100, '+Inf': 100 };
+    expect(bucketQuantileMs(buckets, 0.5)).toBe(2);
+    expect(bucketQuantileMs(buckets, 0.98)).toBe(4);
+    expect(bucketQuantileMs(buckets, 0.99)).toBe(8);
+    expect(bucketQuantileMs({ '0.001': 0, '+Inf': 5 }, 0.5)).toBeUndefined(); // beyond the last finite bound
+    expect(bucketQuantileMs({ '0.001': 0, '+Inf': 0 }, 0.5)).toBeUndefined();
   });
 });
 
