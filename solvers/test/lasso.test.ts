@@ -140,4 +140,27 @@ describe('LASSO by FISTA', () => {
     const shrunk = solve(A, y, parseSolverSettings({ method: 'lasso', refit: false }));
     expect(relativeError(shrunk.x, x0)).toBeGreaterThan(1e-5);
   });
+
+  // The finish on the support (Newton's method on the restricted optimality condition) must
+  // land on the LASSO solution the gap certifies, and a next frame with the same support must
+  // reuse the carried Gram matrix: one evaluation, no applies to rebuild it.
+  it('finishes a warm frame with the same support in one evaluation on the carried Gram matrix', () => {
+    const A = dftSampling(512, 128, 21);
+    const rng = new MT19937(22);
+    const x0 = sparseVector(512, 6, rng, true);
+    const y1 = measure(A, x0);
+    const y2 = y1.map((v, i) => v * (1 + 0.01 * Math.sin(i))); // a slightly different frame
+    const settings = parseSolverSettings({ method: 'lasso', lambda: 0.01, refit: false });
+    const first = solve(A, y1, settings);
+    expect(first.converged).toBe(true);
+    expect(first.warm.gram?.support).toEqual(first.support);
+    const second = solve(A, y2, settings, first.warm);
+    expect(second.converged).toBe(true);
+    expect([...second.support]).toEqual([...first.support]);
+    expect(second.iterations).toBe(1);
+    expect(second.evidence?.['finish_iterations']).toBe(1);
+    // Same answer as a cold solve of the second frame, to the accuracy the gaps certify.
+    const cold = solve(A, y2, parseSolverSettings({ method: 'lasso', lambda: 0.01, refit: false, tolerance: 1e-12 }));
+    expect(relativeError(second.x, cold.x)).toBeLessThan(1e-4);
+  });
 });
