@@ -75,6 +75,8 @@ export function sampleProcess(pid: number): ProcessSample {
 export interface UsageSummary {
   /** CPU time over wall time, in percent of one core (200 = two cores busy). */
   cpuPercent: number;
+  /** CPU seconds used over the window. */
+  cpuSeconds: number;
   rssMeanMb: number;
   rssMaxMb: number;
   /** The kernel's peak resident set of the process at the end of the window (since it started). */
@@ -119,8 +121,10 @@ export class ProcessSampler {
     const first = s[0]!;
     const last = s[s.length - 1]!;
     const wall = (last.at - first.at) / 1000;
+    const cpuSeconds = last.cpuSeconds - first.cpuSeconds;
     return {
-      cpuPercent: wall > 0 ? (100 * (last.cpuSeconds - first.cpuSeconds)) / wall : 0,
+      cpuPercent: wall > 0 ? (100 * cpuSeconds) / wall : 0,
+      cpuSeconds,
       rssMeanMb: s.reduce((sum, x) => sum + x.rssBytes, 0) / s.length / MB,
       rssMaxMb: Math.max(...s.map((x) => x.rssBytes)) / MB,
       peakRssMb: last.peakRssBytes / MB,

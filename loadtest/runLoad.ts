@@ -317,7 +317,7 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     );
   const timeLeft = (seconds: number) => !settings.signal?.aborted && performance.now() + seconds * 1000 < deadline;
   const streams = session.prepared.streams.length;
-  // Capacity guess from the mean bare solve time and the worker count, only to place the first steps.
+  // Capacity guess from the mean bare solve time and the worker count, only to place the warm-up.
   const estimate = ((report.daemon.workers ?? os.availableParallelism()) * 1000) / meanBareMs;
 
   const warmFps = Math.min(0.3 * estimate, (2 * streams) / settings.warmupSeconds);
@@ -335,7 +335,7 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     }
     return;
   }
-  const startFps = 0.25 * estimate;
+  const startFps = searchStart(report.warmup, estimate);
   const search = { ...settings.search, startFps, minFps: startFps / 30 };
   // Keep time for the hold and overload steps after the search.
   const reserve = settings.holdSeconds + settings.overloadSeconds + 2 * settings.search.stepSeconds;
@@ -360,6 +360,19 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     report.overload = overload;
     stepLog(overload);
   }
+}
+
+/**
+ * Where the search starts. When the daemon's CPU was measured, from what the warm-up cost the box
+ * per frame (daemon and generator; cold first frames make it an overestimate, so the guess errs
+ * low): 60 % of the cores over that cost. Otherwise a quarter of the bare-solve guess, which
+ * leaves out everything but the solver.
+ */
+export function searchStart(warmup: StepResult, bareEstimateFps: number): number {
+  if (warmup.daemon === null || warmup.sent === 0) return 0.25 * bareEstimateFps;
+  const cpuSecondsPerFrame = (warmup.daemon.cpuSeconds + (warmup.generator_cpu_percent / 100) * warmup.seconds) / warmup.sent;
+  if (!(cpuSecondsPerFrame > 0)) return 0.25 * bareEstimateFps;
+  return Math.min((0.6 * os.availableParallelism()) / cpuSecondsPerFrame, 0.25 * bareEstimateFps);
 }
 
 function finalAccounting(session: LoadSession, before: DaemonCounters | undefined, after: DaemonCounters | undefined, ownDaemon: boolean): ScenarioAccounting {
