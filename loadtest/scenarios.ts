@@ -113,7 +113,7 @@ export function buildScenario(name: ScenarioName, sizes: ScenarioSizes = {}): Sc
       // Large streams run four times the small streams' rate, telemetry half of it.
       return {
         name,
-        summary: 'mixed: 300 small, 100 telemetry, 2 n = 8192 DFT and 2 full-grid Gabor streams',
+        summary: 'all kinds at once: 300 small, 100 telemetry, 2 n = 8192 DFT and 2 full-grid Gabor streams',
         groups: [GROUPS.small(300, 1), GROUPS.telemetry(100, 0.5), GROUPS.dft(2, 4), GROUPS.gabor(2, 4)],
       };
   }

@@ -83,7 +83,7 @@ function panelSvg(panel: PlotPanel, top: number): string {
 
   const limitY = sy(panel.p99LimitMs);
   out.push(`<line x1="${x0}" x2="${x0 + plotW}" y1="${limitY.toFixed(1)}" y2="${limitY.toFixed(1)}" class="limit"/>`);
-  out.push(`<text x="${x0 + plotW + 6}" y="${(limitY + 4).toFixed(1)}" class="mark">p99 limit ${fmt(panel.p99LimitMs)} ms</text>`);
+  out.push(`<text x="${x0 + 4}" y="${(limitY - 4).toFixed(1)}" class="mark limit-label">p99 limit ${fmt(panel.p99LimitMs)} ms</text>`);
   if (panel.saturationFps !== null && panel.saturationFps > 0) {
     const x = sx(panel.saturationFps);
     out.push(`<line x1="${x.toFixed(1)}" x2="${x.toFixed(1)}" y1="${y0}" y2="${y0 + plotH}" class="saturation"/>`);
@@ -113,7 +113,7 @@ export function latencyPlotSvg(panels: PlotPanel[], description: string): string
     '<style>',
     'text { font-family: sans-serif; fill: #222; }',
     '.title { font-size: 14px; font-weight: bold; } .tick, .legend, .mark, .note { font-size: 11px; } .axis { font-size: 12px; }',
-    '.note { fill: #666; } .frame { fill: #fff; stroke: #999; } .grid { stroke: #e4e4e4; }',
+    '.note { fill: #666; } .frame { fill: #fff; stroke: #999; } .grid { stroke: #e4e4e4; } .limit-label { fill: #b22222; }',
     '.limit { stroke: #b22222; stroke-dasharray: 2 3; stroke-width: 1.2; } .saturation { stroke: #555; stroke-dasharray: 6 4; stroke-width: 1.2; }',
     '</style>',
     `<rect width="${WIDTH}" height="${height}" fill="#fafafa"/>`,
