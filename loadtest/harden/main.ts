@@ -75,10 +75,12 @@ async function main(): Promise<number> {
   const code = await new Promise<number>((resolve) => child.once('exit', (c) => resolve(c ?? 1)));
   clearTimeout(deadline);
 
+  // Suites run in parallel: sort their lines so that the report's rows keep one order.
   const lines = readFileSync(figuresFile, 'utf8')
     .split('\n')
     .filter(Boolean)
-    .map((l) => JSON.parse(l) as FigureLine);
+    .map((l) => JSON.parse(l) as FigureLine)
+    .sort((a, b) => a.attack.localeCompare(b.attack));
   const suites: SuiteOutcome[] = existsSync(vitestFile)
     ? (JSON.parse(readFileSync(vitestFile, 'utf8')) as VitestJson).testResults.map((t) => ({
         file: path.relative(REPO_ROOT, t.name),
