@@ -73,6 +73,7 @@ export interface StepResult {
   daemon_latency_ms: { p50_at_most: number | null; p99_at_most: number | null } | null;
   refused_by_reason: Record<string, number>;
   loss_fraction: number;
+  /** Frames solved over the time from the step's start until every frame was answered. */
   throughput_fps: number;
   latency_ms: LatencySummary;
   /** How late frames left the generator against their schedule (already inside latency_ms). */
@@ -193,6 +194,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
   const sendEnd = performance.now();
   const cpu = process.cpuUsage(cpuBefore);
   const drained = await waitDrained(s, limits.drainTimeoutMs);
+  const answeredAt = performance.now();
   s.reference.window = null;
   const daemon = s.daemonSampler?.window() ?? null;
   const countersAfter = await s.readCounters();
@@ -228,7 +230,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
       : null,
     refused_by_reason: refusedByReason,
     loss_fraction: sent > 0 ? (refused + dropped) / sent : 0,
-    throughput_fps: solved / plan.seconds,
+    throughput_fps: (1000 * solved) / (answeredAt - start),
     latency_ms: latencySummary,
     send_lag_ms: lag.summary(),
     daemon,
