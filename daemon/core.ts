@@ -1,6 +1,6 @@
 import type { Logger } from 'pino';
 import { DEFAULT_QUEUE, type StreamDeclaration as WireDeclaration } from '../protocol/index.js';
-import { Pipeline } from '../pipeline/pipeline.js';
+import { type FrameSubmission, type IngestVerdict, Pipeline } from '../pipeline/pipeline.js';
 import { DeclarationError, checkDeclaration } from '../pipeline/streamSolver.js';
 import type { PipelineEvent, StreamDeclaration } from '../pipeline/types.js';
 import { AccessControl, mayAct, type Principal } from './access.js';
@@ -101,18 +101,7 @@ export class DaemonCore {
 
   /** Declares a stream for `producer`, or re-attaches it to an identical existing one. */
   async declare(producer: ProducerSession, wire: WireDeclaration): Promise<{ credits: number; nextSeq: number | null }> {
-    if (this.stopping) throw new RequestError('shutting_down', 'the daemon is shutting down');
-    const declaration: StreamDeclaration = {
-      ...wire,
-      alerts: wire.alerts ?? [],
-      queue: wire.queue ?? { ...DEFAULT_QUEUE },
-    };
-    try {
-      checkDeclaration(declaration);
-    } catch (err) {
-      if (err instanceof DeclarationError) throw new RequestError('invalid_field', err.message, err.field);
-      throw err;
-    }
+    const declaration = this.checkedDeclaration(wire);
     const name = declaration.name;
     let record = this.streams.get(name);
     if (record !== undefined) {
@@ -135,6 +124,33 @@ export class DaemonCore {
     const status = this.pipeline.status(name)!;
     const busy = status.queueDepth + (status.solving ? 1 : 0);
     return { credits: Math.max(0, declaration.queue.capacity - busy), nextSeq: status.nextSeq ?? null };
+  }
+
+  /** The declaration with defaults filled in, checked; refuses while stopping. */
+  protected checkedDeclaration(wire: WireDeclaration): StreamDeclaration {
+    if (this.stopping) throw new RequestError('shutting_down', 'the daemon is shutting down');
+    const declaration: StreamDeclaration = {
+      ...wire,
+      alerts: wire.alerts ?? [],
+      queue: wire.queue ?? { ...DEFAULT_QUEUE },
+    };
+    try {
+      checkDeclaration(declaration);
+    } catch (err) {
+      if (err instanceof DeclarationError) throw new RequestError('invalid_field', err.message, err.field);
+      throw err;
+    }
+    return declaration;
+  }
+
+  /** A producer's frame: refused at once with a reason, or accepted (cluster mode answers once the frame is stored). */
+  ingest(submission: FrameSubmission): IngestVerdict | Promise<IngestVerdict> {
+    return this.pipeline.ingest(submission);
+  }
+
+  /** The highest seq through which every accepted frame of `stream` has finished (see Pipeline.doneThrough). */
+  doneThrough(stream: string): number | undefined {
+    return this.pipeline.doneThrough(stream);
   }
 
   /** Finishes the stream's accepted frames, then forgets it. */
@@ -256,7 +272,7 @@ export class DaemonCore {
     return record;
   }
 
-  private route(e: PipelineEvent): void {
+  protected route(e: PipelineEvent): void {
     switch (e.kind) {
       case 'result': {
         const r = e.result;
@@ -305,13 +321,18 @@ async function opened(record: StreamRecord): Promise<void> {
   try {
     await record.ready;
   } catch (err) {
-    if (err instanceof WorkerError && err.field) throw new RequestError('invalid_field', err.message, err.field);
-    throw new RequestError('invalid_field', `stream.operator: the operator could not be built: ${(err as Error).message}`, 'stream.operator');
+    throw buildFailure(err);
   }
 }
 
+/** Why a declared stream's operator could not be built, as the producer is told. */
+export function buildFailure(err: unknown): RequestError {
+  if (err instanceof WorkerError && err.field) return new RequestError('invalid_field', err.message, err.field);
+  return new RequestError('invalid_field', `stream.operator: the operator could not be built: ${(err as Error).message}`, 'stream.operator');
+}
+
 /** Canonical JSON (sorted keys) of the fields a re-declaration must repeat exactly. */
-function identityOf(d: StreamDeclaration): string {
+export function identityOf(d: StreamDeclaration): string {
   return canonicalJson({ operator: d.operator, solver: d.solver, alerts: d.alerts, queue: d.queue, noise_sigma: d.noise_sigma ?? null });
 }
 

@@ -54,7 +54,8 @@ export class FanOut {
     }
   }
 
-  publishMissed(m: MissedRange): void {
+  /** `reason` is a DropReason, or in cluster mode the reason a stream's owner refused a stored frame. */
+  publishMissed(m: Omit<MissedRange, 'reason'> & { reason: string }): void {
     let bytes: Uint8Array | undefined;
     for (const sub of this.subscribers) {
       if (sub.viewFor(m.stream) === null) continue;

@@ -1,11 +1,12 @@
 import { type DaemonConfig, resolveConfig } from './config.js';
 import type { DaemonCore } from './core.js';
 import type { OutboxStats } from './outbox.js';
-import { DaemonServer } from './server.js';
+import { type CoreFactory, DaemonServer } from './server.js';
 
 export type { DaemonConfig, DaemonLimits } from './config.js';
 export { DEFAULT_LIMITS, resolveConfig } from './config.js';
 export type { TokenGrant, Role } from './access.js';
+export type { CoreFactory } from './server.js';
 
 /** A daemon started by startDaemon. */
 export interface RunningDaemon {
@@ -28,10 +29,10 @@ export interface RunningDaemon {
   readonly core: DaemonCore;
 }
 
-/** Starts a daemon and resolves once it listens. */
-export async function startDaemon(partial: Partial<DaemonConfig> = {}): Promise<RunningDaemon> {
+/** Starts a daemon and resolves once it listens; `makeCore` swaps in another core (cluster mode). */
+export async function startDaemon(partial: Partial<DaemonConfig> = {}, makeCore?: CoreFactory): Promise<RunningDaemon> {
   const config = resolveConfig(partial);
-  const server = new DaemonServer(config);
+  const server = new DaemonServer(config, makeCore);
   let restoredStreams: number;
   try {
     restoredStreams = await server.core.restore();

@@ -1,6 +1,7 @@
 import { unpack } from 'msgpackr';
 import type { CloseMessage, DeclareMessage, FrameMessage, Message, ProtocolError } from '../protocol/index.js';
 import { isPlainMap, streamNameProblem } from '../protocol/index.js';
+import type { IngestVerdict } from '../pipeline/pipeline.js';
 import type { RefusalReason } from '../pipeline/types.js';
 import { mayAct } from './access.js';
 import { Connection, RequestError } from './connection.js';
@@ -69,14 +70,14 @@ export class ProducerSession extends Connection {
     }
   }
 
-  private frame(msg: FrameMessage): void {
+  private frame(msg: FrameMessage): Promise<void> | void {
     this.core.metrics.framesReceived.inc();
     const { stream, seq } = msg;
     if (!mayAct(this.principal, 'produce', stream)) return this.refuse(stream, seq, 'forbidden', `this token may not produce stream "${stream}"`);
     if (!this.attached.has(stream)) {
       return this.refuse(stream, seq, 'unknown_stream', `stream "${stream}" is not declared on this connection`);
     }
-    const verdict = this.core.pipeline.ingest({
+    const verdict = this.core.ingest({
       stream,
       seq,
       time: msg.time,
@@ -84,6 +85,11 @@ export class ProducerSession extends Connection {
       ...(msg.sigma !== undefined ? { sigma: msg.sigma } : {}),
       receivedAt: performance.now(),
     });
+    if (verdict instanceof Promise) return verdict.then((v) => this.settleFrame(stream, seq, v));
+    this.settleFrame(stream, seq, verdict);
+  }
+
+  private settleFrame(stream: string, seq: number, verdict: IngestVerdict): void {
     if (verdict.accepted) {
       this.core.frameAccepted();
       return;
@@ -110,7 +116,8 @@ export class ProducerSession extends Connection {
     this.refuse(frame.stream, frame.seq, reason, err.message);
   }
 
-  private refuse(stream: string, seq: number, reason: RefusalReason | 'invalid_field', detail: string): void {
+  /** Tells the producer a frame was not taken (cluster mode: also for frames its stream's owner refused). */
+  refuse(stream: string, seq: number, reason: RefusalReason | 'invalid_field', detail: string): void {
     this.core.metrics.framesRefused.inc({ reason });
     this.send({ v: 1, type: 'refused', stream, seq, reason, detail });
     // The refused frame cost the producer a credit; give it back (only on its own streams).
@@ -136,7 +143,7 @@ export class ProducerSession extends Connection {
   flushAcks(): void {
     this.flushScheduled = false;
     for (const [stream, p] of this.pending) {
-      const through = this.core.pipeline.doneThrough(stream) ?? (p.lastFinished >= 0 ? p.lastFinished : undefined);
+      const through = this.core.doneThrough(stream) ?? (p.lastFinished >= 0 ? p.lastFinished : undefined);
       if (p.solved + p.dropped > 0 && through !== undefined) {
         this.send({ v: 1, type: 'ack', stream, through_seq: through, solved: p.solved, dropped: p.dropped });
       }

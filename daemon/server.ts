@@ -19,6 +19,8 @@ const FLUSH_WAIT_MS = 2000;
 
 type Endpoint = 'produce' | 'watch';
 
+export type CoreFactory = (config: DaemonConfig, log: Logger) => DaemonCore;
+
 /** The network side: one HTTP(S) server carrying the WebSocket endpoints and the HTTP endpoints. */
 export class DaemonServer {
   readonly core: DaemonCore;
@@ -34,9 +36,13 @@ export class DaemonServer {
   private closing: Promise<void> | undefined;
   port = 0;
 
-  constructor(readonly config: DaemonConfig) {
+  /** `makeCore` replaces the single-node core (cluster mode plugs in here). */
+  constructor(
+    readonly config: DaemonConfig,
+    makeCore: CoreFactory = (c, log) => new DaemonCore(c, log),
+  ) {
     this.log = config.logger ?? pino({ level: config.logLevel, base: { service: 'sparsewire' } }, pino.destination(2));
-    this.core = new DaemonCore(config, this.log);
+    this.core = makeCore(config, this.log);
     const handler = (req: http.IncomingMessage, res: http.ServerResponse) => {
       this.handleHttp(req, res).catch((err: Error) => {
         // The path only: the query may carry ?token=.
