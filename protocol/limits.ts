@@ -27,6 +27,8 @@ export const MAX_QUEUE_CAPACITY = 10_000;
 export const MAX_TOP_K = 1024;
 /** Stream names or patterns in one subscription. */
 export const MAX_SUBSCRIBE_PATTERNS = 64;
+/** Streams named in one subscription's `resume_after` (each is checked and looked up). */
+export const MAX_RESUME_STREAMS = 4096;
 /** Quality flags on one result. */
 export const MAX_FLAGS = 32;
 /** Sequence numbers are integers in [0, 2^53 − 1] (exact in a float64 and in JavaScript). */

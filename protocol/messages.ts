@@ -12,6 +12,7 @@ import {
   MAX_FLAGS,
   MAX_MEASUREMENTS,
   MAX_REF_LENGTH,
+  MAX_RESUME_STREAMS,
   MAX_SEQ,
   MAX_SUBSCRIBE_PATTERNS,
   MAX_TOP_K,
@@ -211,6 +212,8 @@ export const subscribeSchema = z.strictObject({
    */
   resume_after: z
     .custom<Record<string, number>>(isPlainMap, { message: 'expected a map of stream name to seq' })
+    // Counted before the entries are checked: a 4 MiB map holds some 400 000 of them.
+    .refine((m) => Object.keys(m).length <= MAX_RESUME_STREAMS, { message: `names more than ${MAX_RESUME_STREAMS} streams` })
     .pipe(z.record(streamNameSchema, z.int().min(-1).max(MAX_SEQ)))
     .optional(),
 });

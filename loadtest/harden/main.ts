@@ -1,5 +1,5 @@
 /**
- * The reliability runner: `npm run harden` (scale `report`, bounded to about ten minutes on two
+ * The reliability runner: `npm run harden` (scale `report`, three to five minutes on two
  * cores) and `npm run soak` (scale `soak`, hours). It runs the fuzz, fault and attack suites of
  * test/hardening in vitest with more inputs than CI, collects the figures each suite records,
  * prints them as the figures block of docs/reliability.md, and with --update-doc writes that

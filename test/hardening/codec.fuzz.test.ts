@@ -6,6 +6,7 @@ import {
   decode,
   encode,
   MAX_MESSAGE_BYTES,
+  MAX_RESUME_STREAMS,
   MESSAGE_TYPES,
   ProtocolError,
   type Message,
@@ -152,11 +153,19 @@ describe('protocol decoder under hostile input', () => {
     recordFigures('decoder: unknown versions and types', tally.figures());
   });
 
-  it('size limits: over 4 MiB is refused before parsing; huge claimed lengths allocate nothing', () => {
+  it('size limits: over 4 MiB is refused before parsing, resume_after is bounded by count, huge claimed lengths allocate nothing', () => {
     // MAX_MESSAGE_BYTES is the documented bound (docs/protocol.md, "Limits").
-    const over = new Uint8Array(MAX_MESSAGE_BYTES + 1);
-    over[0] = 0x80;
-    expect(() => decode(over)).toThrow(expect.objectContaining({ code: 'too_large' }));
+    const oversized = new Uint8Array(MAX_MESSAGE_BYTES + 1);
+    oversized[0] = 0x80;
+    expect(() => decode(oversized)).toThrow(expect.objectContaining({ code: 'too_large' }));
+
+    // The one map whose entries a sender chooses freely is bounded by count before its entries
+    // are checked (MAX_RESUME_STREAMS, docs/protocol.md "Limits").
+    const resume = (n: number) => Object.fromEntries(Array.from({ length: n }, (_, i) => [`s${i}`, i]));
+    const subscribe = { v: 1, type: 'subscribe', ref: 'r', streams: '*', want: ['quality'], when_behind: 'keep_latest' };
+    expect(judge(pack({ ...subscribe, resume_after: resume(MAX_RESUME_STREAMS) })).ok).toBe(true);
+    const over = judge(pack({ ...subscribe, resume_after: resume(MAX_RESUME_STREAMS + 1) }));
+    expect(!over.ok && [over.err.code, over.err.field]).toEqual(['invalid_field', 'resume_after']);
 
     // A 9-byte message claiming a 4 GiB array, map, string, bin or extension, inside a valid frame
     // or alone: the decoder must notice the data is not there rather than reserve room for it.
