@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { randomBytes } from 'node:crypto';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import https from 'node:https';
 import os from 'node:os';
 import path from 'node:path';
@@ -223,6 +223,7 @@ describe('tokens in the logs', () => {
       await new Promise((r) => setTimeout(r, 300));
     } finally {
       await daemon.stop();
+      rmSync(dir, { recursive: true, force: true });
     }
     const log = daemon.output();
     // The log did record all this (else the check below would prove nothing)...
@@ -265,6 +266,7 @@ describe('TLS', () => {
       recordFigures('access: TLS with a self-signed certificate', { wss_ok: 1, https_ok: 1, untrusted_refused: 1, plain_refused: 1, wrong_token_refused: 1 });
     } finally {
       await daemon.stop();
+      rmSync(path.dirname(tls.cert), { recursive: true, force: true });
     }
   });
 });

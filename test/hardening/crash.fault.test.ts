@@ -1,8 +1,8 @@
 import { spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, statSync } from 'node:fs';
+import { existsSync, mkdtempSync, rmSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import { Producer, Subscriber } from '../../clients/index.js';
 import { readRecording } from '../../clients/recording/index.js';
 import { eventually } from '../../daemon/test/helpers.js';
@@ -21,18 +21,29 @@ import { byScale, recordFigures } from './support/scale.js';
 const FRAMES = byScale({ ci: 120, report: 600, soak: 3000 });
 const fastBackoff = { initialMs: 50, maxMs: 400 };
 
+/** Processes and files this suite made, removed whatever happens in the test. */
+const cleanups: Array<() => void | Promise<unknown>> = [];
+afterEach(async () => {
+  for (const cleanup of cleanups.splice(0).reverse()) await cleanup();
+});
+
 describe('SIGKILL mid-recording', () => {
   it('the daemon killed and restarted, then the recorder killed: the recording’s valid prefix reads back and nothing vanished', async () => {
     const dir = mkdtempSync(path.join(os.tmpdir(), 'sparsewire-crash-'));
+    cleanups.push(() => rmSync(dir, { recursive: true, force: true }));
     const stateDir = path.join(dir, 'state');
     const file = path.join(dir, 'session.swrec');
     const serveArgs = ['--state-dir', stateDir, '--no-static', '--workers', '1', '--log-level', 'warn'];
     let daemon = await DaemonProcess.serve(['--port', '0', ...serveArgs]);
+    cleanups.push(() => daemon.stop());
     const port = daemon.port;
 
     const recorder = spawn(process.execPath, [path.join(REPO_ROOT, 'bin', 'sparsewire.js'), 'record', '--daemon', daemon.url, '--out', file, '--streams', 'crash.*'], {
       cwd: REPO_ROOT,
       stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    cleanups.push(() => {
+      if (recorder.exitCode === null && recorder.signalCode === null) recorder.kill('SIGKILL');
     });
     let recorderLog = '';
     recorder.stderr.on('data', (c: Buffer) => (recorderLog += c.toString()));
@@ -41,6 +52,7 @@ describe('SIGKILL mid-recording', () => {
 
     const feed = dftStream(256, 64);
     const subscriber = new Subscriber({ url: daemon.url, backoff: fastBackoff });
+    cleanups.push(() => subscriber.close());
     const seen = new Set<number>();
     const missed: MissedMessage[] = [];
     subscriber.on('result', (r) => seen.add(r.seq));
@@ -48,6 +60,7 @@ describe('SIGKILL mid-recording', () => {
     await subscriber.connect();
     await subscriber.subscribe({ streams: 'crash.*', want: ['quality'], whenBehind: 'drop_with_notice' });
     const producer = new Producer({ url: daemon.url, backoff: fastBackoff });
+    cleanups.push(() => producer.close());
     await producer.connect();
     const stream = await producer.declare({ name: 'crash.s', operator: feed.operator, solver: { method: 'lasso' } });
     const pumping = (async () => {

@@ -1,5 +1,5 @@
 import fc from 'fast-check';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -42,6 +42,7 @@ for (let seq = 0; seq < 8; seq++) {
 }
 writer.close();
 const whole = new Uint8Array(readFileSync(file));
+rmSync(dir, { recursive: true, force: true });
 const intact = parseRecording(whole);
 
 function sameRecords(a: Recording, b: Recording, count: number): void {
