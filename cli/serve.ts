@@ -1,6 +1,7 @@
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { parseArgs } from 'node:util';
+import { startClusterNode } from '../cluster/index.js';
 import { type DaemonConfig, type RunningDaemon, type TokenGrant, startDaemon } from '../daemon/index.js';
 
 /**
@@ -44,6 +45,9 @@ const OPTIONS: OptionSpec[] = [
   { flag: 'outbox-hard-cap-bytes', env: 'SPARSEWIRE_OUTBOX_HARD_CAP_BYTES', kind: 'int', target: 'limits.outboxHardCapBytes', help: 'Unsent bytes that terminate a connection (default 16777216).' },
   { flag: 'outbox-max-notices', env: 'SPARSEWIRE_OUTBOX_MAX_NOTICES', kind: 'int', target: 'limits.outboxMaxNotices', help: 'Notices held for a subscriber that is behind (default 1000).' },
   { flag: 'max-queued-bytes', env: 'SPARSEWIRE_MAX_QUEUED_BYTES', kind: 'int', target: 'limits.maxQueuedBytes', help: 'Measurement bytes all queues may hold before reading from producers pauses (default 268435456).' },
+  { flag: 'cluster', env: 'SPARSEWIRE_CLUSTER', kind: 'string', target: 'cluster', help: 'Run as a cluster node on NATS JetStream at these URLs (comma-separated, e.g. nats://127.0.0.1:4222); see docs/cluster.md.' },
+  { flag: 'cluster-prefix', env: 'SPARSEWIRE_CLUSTER_PREFIX', kind: 'string', target: 'clusterPrefix', help: 'Prefix of the cluster\'s NATS subjects, stream and buckets (default sparsewire).' },
+  { flag: 'node-id', env: 'SPARSEWIRE_NODE_ID', kind: 'string', target: 'nodeId', help: 'This cluster node\'s id (default host-pid-random).' },
   { flag: 'log-level', env: 'SPARSEWIRE_LOG_LEVEL', kind: 'string', target: 'logLevel', help: 'fatal, error, warn, info (default), debug, trace or silent.' },
   { flag: 'config', env: 'SPARSEWIRE_CONFIG', kind: 'string', target: 'config', help: 'JSON file with any of these settings (camelCase keys, see docs/daemon.md).' },
 ];
@@ -69,11 +73,14 @@ export function serveHelp(): string {
   ].join('\n');
 }
 
+/** The daemon's settings, plus where its cluster is when it runs as a cluster node. */
+export type ServeOptions = Partial<DaemonConfig> & { cluster?: { servers: string[]; prefix?: string; nodeId?: string } };
+
 /** A bad setting: the message names it. */
 export class ServeOptionError extends Error {}
 
 /** Resolves the daemon configuration from flags, environment and config file. */
-export function serveOptions(argv: string[], env: NodeJS.ProcessEnv = process.env): Partial<DaemonConfig> | 'help' {
+export function serveOptions(argv: string[], env: NodeJS.ProcessEnv = process.env): ServeOptions | 'help' {
   const parsed = parseArgs({
     args: argv,
     strict: true,
@@ -96,7 +103,7 @@ export function serveOptions(argv: string[], env: NodeJS.ProcessEnv = process.en
   const fromFile = file === undefined ? {} : readConfigFile(file);
   const pick = <T>(key: string): T | undefined => (raw.has(key) ? (raw.get(key) as T) : (fromFile[key] as T | undefined));
 
-  const config: Partial<DaemonConfig> = { port: DEFAULT_PORT };
+  const config: ServeOptions = { port: DEFAULT_PORT };
   for (const key of ['host', 'port', 'workers', 'heartbeatMs', 'shutdownGraceMs', 'retainedResults', 'logLevel'] as const) {
     const v = pick(key);
     if (v !== undefined) (config as Record<string, unknown>)[key] = v;
@@ -126,12 +133,18 @@ export function serveOptions(argv: string[], env: NodeJS.ProcessEnv = process.en
     if (cert === undefined || key === undefined) throw new ServeOptionError('TLS needs both --tls-cert and --tls-key');
     config.tls = { cert: path.resolve(cert as string), key: path.resolve(key as string) };
   }
+  const cluster = pick<string>('cluster');
+  if (cluster !== undefined) {
+    const prefix = pick<string>('clusterPrefix');
+    const nodeId = pick<string>('nodeId');
+    config.cluster = { servers: cluster.split(',').map((u) => u.trim()).filter((u) => u !== ''), ...(prefix ? { prefix } : {}), ...(nodeId ? { nodeId } : {}) };
+  }
   return config;
 }
 
 const FILE_KEYS = new Set([
   'host', 'port', 'workers', 'stateDir', 'noState', 'tokens', 'tokensFile', 'tls', 'staticDir', 'noStatic',
-  'limits', 'heartbeatMs', 'shutdownGraceMs', 'retainedResults', 'logLevel',
+  'limits', 'heartbeatMs', 'shutdownGraceMs', 'retainedResults', 'logLevel', 'cluster', 'clusterPrefix', 'nodeId',
 ]);
 
 function readConfigFile(file: string): Record<string, unknown> {
@@ -173,7 +186,7 @@ function convert(o: OptionSpec, value: string | boolean, source: string): unknow
 
 /** Runs `sparsewire serve`; resolves with the exit code once the daemon has stopped. */
 export async function serveCommand(argv: string[]): Promise<number> {
-  let options: Partial<DaemonConfig> | 'help';
+  let options: ServeOptions | 'help';
   try {
     options = serveOptions(argv);
   } catch (err) {
@@ -186,7 +199,8 @@ export async function serveCommand(argv: string[]): Promise<number> {
   }
   let daemon: RunningDaemon;
   try {
-    daemon = await startDaemon(options);
+    const { cluster, ...config } = options;
+    daemon = cluster === undefined ? await startDaemon(config) : await startClusterNode(config, cluster);
   } catch (err) {
     process.stderr.write(`sparsewire serve: could not start: ${(err as Error).message}\n`);
     return 1;

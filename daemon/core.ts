@@ -69,7 +69,7 @@ export class DaemonCore {
     });
     this.pipeline = new Pipeline({
       backend: this.pool,
-      wantsSignal: (stream) => [...this.fanout.subscribers].some((s) => s.viewFor(stream)?.signal === true),
+      wantsSignal: (stream) => this.wantsSignal(stream),
       onSolveError: (stream, seq, err) => this.log.warn({ stream, seq, err: (err as Error).message }, 'solve failed; frame dropped'),
     });
     this.pipeline.events.subscribe((e) => this.route(e));
@@ -272,34 +272,55 @@ export class DaemonCore {
     return record;
   }
 
+  /** Whether some subscriber wants the reconstructed signal of `stream` (computed only then). */
+  protected wantsSignal(stream: string): boolean {
+    return [...this.fanout.subscribers].some((s) => s.viewFor(stream)?.signal === true);
+  }
+
+  /** Where the pipeline's events go: metrics and logs, then subscribers and producers. */
   protected route(e: PipelineEvent): void {
+    this.count(e);
     switch (e.kind) {
       case 'result': {
         const r = e.result;
-        this.metrics.framesSolved.inc();
-        this.metrics.solveSeconds.observe(r.evidence.solve_ms / 1000);
-        this.metrics.latencySeconds.observe(r.latencySeconds);
         this.fanout.publishResult(r);
         this.streams.get(r.stream)?.producer?.noteFinished(r.stream, r.seq, 'solved');
         this.maybeResumeIngest();
         return;
       }
       case 'dropped':
-        this.metrics.framesDropped.inc({ reason: e.reason });
         this.streams.get(e.stream)?.producer?.noteFinished(e.stream, e.seq, 'dropped');
         this.maybeResumeIngest();
         return;
       case 'missed':
         this.fanout.publishMissed(e.missed);
         return;
+      case 'alert':
+        this.fanout.publishAlert(e.alert);
+        return;
+      case 'stream_closed':
+        return;
+    }
+  }
+
+  /** Metrics and log lines of a pipeline event (wherever its subscribers are). */
+  protected count(e: PipelineEvent): void {
+    switch (e.kind) {
+      case 'result':
+        this.metrics.framesSolved.inc();
+        this.metrics.solveSeconds.observe(e.result.evidence.solve_ms / 1000);
+        this.metrics.latencySeconds.observe(e.result.latencySeconds);
+        return;
+      case 'dropped':
+        this.metrics.framesDropped.inc({ reason: e.reason });
+        return;
       case 'alert': {
         const a = e.alert;
         (a.state === 'raised' ? this.metrics.alertsRaised : this.metrics.alertsCleared).inc({ metric: a.rule.metric });
         this.log.warn({ stream: a.stream, seq: a.seq, rule: a.ruleIndex, metric: a.rule.metric, value: a.value, limit: a.limit }, `alert ${a.state}`);
-        this.fanout.publishAlert(a);
         return;
       }
-      case 'stream_closed':
+      default:
         return;
     }
   }
