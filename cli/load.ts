@@ -7,6 +7,7 @@ import { FEED_KINDS, type FeedKind } from '../clients/feeds/index.js';
 import { SCENARIO_NAMES, type ScenarioName } from '../loadtest/scenarios.js';
 import { flag, helpText, list, num, parseCommandLine, str, UsageError, type CommandSpec, type OptionValues } from './args.js';
 import { EXIT } from './exitCodes.js';
+import { startLocalCluster } from '../cluster/localCluster.js';
 import { reportFailure, stopWhen } from './runtime.js';
 
 export const loadSpec: CommandSpec = {
@@ -41,7 +42,8 @@ export const loadSpec: CommandSpec = {
     { name: 'target', kind: 'string', value: '<url>', help: 'Load this running daemon instead of starting one (its CPU and memory are then not measured).' },
     { name: 'target-pid', kind: 'int', value: '<pid>', min: 1, help: "The --target daemon's process id when it runs on this machine: measure its CPU and memory." },
     { name: 'token', kind: 'string', value: '<token>', env: 'SPARSEWIRE_TOKEN', help: 'Access token for --target (needs the produce and watch roles).' },
-    { name: 'workers', kind: 'int', value: '<n>', min: 1, help: 'Solver workers of the daemon started for the run (default: one per core).' },
+    { name: 'workers', kind: 'int', value: '<n>', min: 1, help: 'Solver workers of the daemon started for the run (default: one per core; with --nodes, one per node).' },
+    { name: 'nodes', kind: 'int', value: '<n>', min: 1, help: 'Cluster mode: start nats-server and n cluster nodes on this machine and load them; frames enter and results leave through the first node (docs/cluster.md).' },
     { name: 'streams-per-connection', kind: 'int', value: '<n>', min: 1, help: 'Streams per producer connection (default 250; the started daemon allows that many).' },
     { name: 'slow', kind: 'int', value: '<n>', min: 0, help: 'Slow subscribers (default 2; policies keep_latest, drop_with_notice, disconnect in turn).' },
     { name: 'slow-read-kib', kind: 'number', value: '<KiB/s>', min: 1, help: 'How fast each slow subscriber reads (default 256).' },
@@ -75,6 +77,7 @@ export function loadSettings(values: OptionValues, log: (line: string) => void):
     }
   }
   if (num(values, 'target-pid') !== undefined && target === undefined) throw new UsageError('--target-pid goes with --target');
+  if (num(values, 'nodes') !== undefined && target !== undefined) throw new UsageError('give --nodes or --target, not both');
   const slowCount = num(values, 'slow') ?? 2;
   const token = str(values, 'token');
   const targetPid = num(values, 'target-pid');
@@ -129,7 +132,7 @@ export async function loadCommand(argv: string[]): Promise<number> {
     }
     const log = (line: string) => process.stderr.write(`${line}\n`);
     const { settings, outDir, json } = loadSettings(parsed.values, log);
-    const report = await runLoad({ ...settings, signal: stop.signal });
+    const report = await withLocalCluster(num(parsed.values, 'nodes'), settings, log, (s) => runLoad({ ...s, signal: stop.signal }));
     const files = writeReport(outDir, report);
     for (const s of report.scenarios) {
       log(`${s.name}: saturation ${s.saturation_fps?.toFixed(0) ?? '–'} frames/s; p99 at 70 % ${s.at_70pct ? `${s.at_70pct.latency_ms.p99.toFixed(1)} ms` : '–'}; daemon peak ${s.daemon_peak_rss_mb?.toFixed(0) ?? '–'} MiB`);
@@ -143,5 +146,21 @@ export async function loadCommand(argv: string[]): Promise<number> {
     return reportFailure('load', err);
   } finally {
     stop.dispose();
+  }
+}
+
+/**
+ * With --nodes: the run's daemon is a local cluster (nats-server and that many nodes, child
+ * processes), loaded through its first node as a --target whose CPU and memory are measured.
+ */
+async function withLocalCluster<T>(nodes: number | undefined, settings: LoadSettings, log: (line: string) => void, run: (s: LoadSettings) => Promise<T>): Promise<T> {
+  if (nodes === undefined) return run(settings);
+  const nodeArgs = ['--log-level', 'error', '--workers', String(settings.workers ?? 1), '--max-streams-per-connection', String(settings.streamsPerConnection)];
+  const cluster = await startLocalCluster(nodes, nodeArgs);
+  log(`cluster: nats-server at ${cluster.natsUrl}, ${nodes} node(s); loading ${cluster.nodes[0]!.url}`);
+  try {
+    return await run({ ...settings, target: { url: cluster.nodes[0]!.url, pid: cluster.nodes[0]!.pid } });
+  } finally {
+    await cluster.stop();
   }
 }

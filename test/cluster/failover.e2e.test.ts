@@ -3,7 +3,7 @@ import { Producer } from '../../clients/index.js';
 import type { MissedMessage, RefusedMessage, ResultMessage } from '../../protocol/index.js';
 import { TestClient } from '../../daemon/test/helpers.js';
 import { dftStream } from '../../daemon/test/synthetic.js';
-import { ClusterHarness, type RunningNode, findNatsServer, waitUntil } from './natsHarness.js';
+import { LocalCluster, type LocalNode, findNatsServer, waitUntil } from '../../cluster/localCluster.js';
 
 // The cluster's promise (docs/cluster.md): frames stored in the JetStream log are not lost when
 // the node owning their partition dies. A real nats-server with JetStream and three sparsewire
@@ -19,13 +19,13 @@ const FRAMES = 40;
 const KILL_AT = 14;
 
 describe.skipIf(nats === undefined)('cluster failover (needs nats-server; .ci/run installs it)', () => {
-  const harness = new ClusterHarness();
-  afterAll(() => harness.stopAll(), 20_000);
+  const harness = new LocalCluster();
+  afterAll(() => harness.stop(), 20_000);
 
   it('a node dies mid-run: every accepted frame is solved once or reported, in order, seen from a surviving node', async () => {
     await harness.startNats(nats!);
-    const nodes = await Promise.all(['node-a', 'node-b', 'node-c'].map((id) => harness.startNode(id)));
-    const [gateway] = nodes as [RunningNode, RunningNode, RunningNode];
+    const nodes = await Promise.all(['node-a', 'node-b', 'node-c'].map((id) => harness.startNode(id, ['--workers', '1', '--log-level', 'warn'])));
+    const [gateway] = nodes as [LocalNode, LocalNode, LocalNode];
     const s = dftStream();
     const names = Array.from({ length: STREAMS }, (_, i) => `fo.line-${i}`);
 
@@ -49,7 +49,7 @@ describe.skipIf(nats === undefined)('cluster failover (needs nats-server; .ci/ru
       ownership = await owners();
       settled = [...ownership.values()].every((o) => o.length === 1) ? settled + 1 : 0;
     }
-    const ownedBy = (n: RunningNode) => names.filter((name) => ownership.get(name)![0] === n);
+    const ownedBy = (n: LocalNode) => names.filter((name) => ownership.get(name)![0] === n);
     const [victim, survivor] = ownedBy(nodes[1]!).length >= ownedBy(nodes[2]!).length ? [nodes[1]!, nodes[2]!] : [nodes[2]!, nodes[1]!];
     const moved = ownedBy(victim);
     expect(moved.length, 'the node to be killed owns some of the streams').toBeGreaterThan(0);
@@ -81,7 +81,7 @@ describe.skipIf(nats === undefined)('cluster failover (needs nats-server; .ci/ru
     await waitUntil(
       () => names.every((name) => accepted(name).every((t) => covered(name).has(t))),
       60_000,
-      () => `not every accepted frame came out within 60 s: ${names.map((n) => `${n} ${covered(n).size}/${accepted(n).length}`).join(', ')}\n${victim.id} killed; survivor ${survivor.id} log:\n${survivor.stderr.join('').slice(-3000)}`,
+      () => `not every accepted frame came out within 60 s: ${names.map((n) => `${n} ${covered(n).size}/${accepted(n).length}`).join(', ')}\n${victim.id} killed; survivor ${survivor.id} log:\n${survivor.logTail()}`,
     );
 
     for (const name of names) {
