@@ -126,6 +126,8 @@ export class ClusterCore extends DaemonCore {
     if (this.stopping) return { accepted: false, reason: 'shutting_down', detail: 'this node is shutting down; send to another node' };
     const record = this.registry?.get(s.stream);
     if (record === undefined) return { accepted: false, reason: 'unknown_stream', field: 'stream', detail: `no stream named "${s.stream}" is declared` };
+    const done = this.delivered.get(s.stream);
+    if (done !== undefined && s.seq <= done) return { accepted: false, reason: 'duplicate', field: 'seq', detail: `seq ${s.seq} was already solved or reported` };
     const check = checkFrameData(s.yBytes, record.shape.rows, s.sigma);
     if (!check.ok) return { accepted: false, reason: check.reason, field: check.field, detail: check.detail };
     const frame = { v: 1, type: 'frame', stream: s.stream, seq: s.seq, time: s.time, y: s.yBytes, ...(s.sigma !== undefined ? { sigma: s.sigma } : {}) };
@@ -247,8 +249,8 @@ export class ClusterCore extends DaemonCore {
         return;
       case 'refused': {
         this.attached.get(e.stream)?.refuse(e.stream, e.seq, e.reason as never, `refused by the stream's owner: ${e.detail}`);
-        // Subscribers hear of a stored frame that will have no result; a duplicate already had one.
-        if (e.reason !== 'duplicate' && e.seq > (this.delivered.get(e.stream) ?? -1)) {
+        // Subscribers hear of a stored frame that will have no result.
+        if (e.seq > (this.delivered.get(e.stream) ?? -1)) {
           this.fanout.publishMissed({ stream: e.stream, fromSeq: e.seq, toSeq: e.seq, count: 1, reason: e.reason });
         }
         return;

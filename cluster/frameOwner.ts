@@ -107,7 +107,12 @@ export class FrameOwner {
     const home = partitionOf(stream, this.d.names.partitions);
     if (home !== partition) return refuse('invalid_field', `stream "${stream}" belongs to partition ${home}; it was published on partition ${partition}`);
     const done = this.lastDone(stream);
-    if (done !== undefined && seq <= done) return refuse('duplicate', `seq ${seq} was already solved or reported`);
+    if (done !== undefined && seq <= done) {
+      // Its fate is already announced (a previous owner finished it but its ack was lost in the
+      // handover): a repeat, not a new frame. Gateways refuse producers' own repeats on arrival.
+      msg.ack();
+      return;
+    }
     const held = this.pending.get(stream);
     if (held?.has(seq)) {
       held.set(seq, msg); // redelivered while still in our pipeline: acknowledge the newest delivery

@@ -22,8 +22,9 @@ export class PartitionLeases {
   /** Owned partitions → revision of our lease. */
   private readonly owned = new Map<number, number>();
   private readonly releasing = new Set<number>();
-  private timer: NodeJS.Timeout | undefined;
-  private tick: Promise<void> | undefined;
+  private readonly timers: NodeJS.Timeout[] = [];
+  private renewing: Promise<void> | undefined;
+  private balancing: Promise<void> | undefined;
   private stopped = false;
 
   constructor(
@@ -42,25 +43,43 @@ export class PartitionLeases {
   async start(): Promise<void> {
     await this.heartbeat();
     await new Promise((resolve) => setTimeout(resolve, this.s.renewMs));
-    await this.runTick();
-    this.timer = setInterval(() => void this.runTick(), this.s.renewMs);
+    await this.balanceRound();
+    // Renewal runs on its own clock: a slow balancing round (taking many partitions on a busy
+    // machine) must never let the leases already held expire.
+    this.timers.push(setInterval(() => void this.renewRound(), this.s.renewMs));
+    this.timers.push(setInterval(() => void this.balanceRound(), this.s.renewMs));
   }
 
   /** Hands every partition over and withdraws the node. */
   async stop(): Promise<void> {
     this.stopped = true;
-    clearInterval(this.timer);
-    await this.tick;
-    await Promise.all([...this.owned.keys()].filter((p) => !this.releasing.has(p)).map((p) => this.handOver(p)));
+    for (const t of this.timers) clearInterval(t);
+    await this.balancing;
+    // Keep renewing while the partitions finish their frames.
+    const keepRenewing = setInterval(() => void this.renewRound(), this.s.renewMs);
+    try {
+      await Promise.all([...this.owned.keys()].filter((p) => !this.releasing.has(p)).map((p) => this.handOver(p)));
+    } finally {
+      clearInterval(keepRenewing);
+    }
+    await this.renewing;
     await this.h.nodes.delete(this.s.nodeId).catch(() => undefined);
   }
 
-  private runTick(): Promise<void> {
-    if (this.tick !== undefined || this.stopped) return this.tick ?? Promise.resolve();
-    this.tick = this.balance()
-      .catch((err: Error) => this.log.warn({ err: err.message }, 'lease round failed; retrying next round'))
-      .finally(() => (this.tick = undefined));
-    return this.tick;
+  private renewRound(): Promise<void> {
+    this.renewing ??= Promise.all([this.heartbeat(), this.renew()])
+      .then(() => undefined)
+      .catch((err: Error) => this.log.warn({ err: err.message }, 'lease renewal failed; retrying next round'))
+      .finally(() => (this.renewing = undefined));
+    return this.renewing;
+  }
+
+  private balanceRound(): Promise<void> {
+    if (this.stopped) return Promise.resolve();
+    this.balancing ??= this.balance()
+      .catch((err: Error) => this.log.warn({ err: err.message }, 'balancing round failed; retrying next round'))
+      .finally(() => (this.balancing = undefined));
+    return this.balancing;
   }
 
   private heartbeat(): Promise<number> {
@@ -68,8 +87,6 @@ export class PartitionLeases {
   }
 
   private async balance(): Promise<void> {
-    await this.heartbeat();
-    await this.renew();
     const live = await collect(await this.h.nodes.keys());
     const share = Math.ceil(this.s.partitions / Math.max(1, live.length));
     const kept = this.owned.size - this.releasing.size;
@@ -87,7 +104,7 @@ export class PartitionLeases {
       try {
         this.owned.set(p, await this.h.leases.update(leaseKey(p), this.s.nodeId, revision));
       } catch (err) {
-        if (!this.owned.has(p)) continue; // handed over meanwhile
+        if (!this.owned.has(p) || this.releasing.has(p)) continue; // being handed over
         this.owned.delete(p);
         this.log.warn({ partition: p, err: (err as Error).message }, 'partition lease lost');
         this.handlers.lost(p);
