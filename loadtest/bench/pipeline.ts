@@ -23,6 +23,7 @@
  * Options: --frames N (timed frames per stream, default 100), --streams S (default 4),
  * --repeats R (default 5).
  */
+import os from 'node:os';
 import pino from 'pino';
 import WebSocket from 'ws';
 import { RangeFeed } from '../../clients/feeds/index.js';
@@ -226,6 +227,7 @@ export async function run(args: string[]): Promise<BenchResult> {
   const frames = option(args, 'frames', 100);
   const streams = option(args, 'streams', 4);
   const repeats = option(args, 'repeats', 5);
+  const loadBefore = os.loadavg()[0]!;
   const single = frameSet('bench.moderate', WARMUP + frames, 1);
   const sets = Array.from({ length: streams }, (_, i) => frameSet(`bench.saturate-${i}`, WARMUP + frames, 100 + i));
   const bareRuns: number[][] = [];
@@ -256,6 +258,8 @@ export async function run(args: string[]): Promise<BenchResult> {
     `| saturation, ${streams} streams, 1 worker | ${best1.toFixed(1)} frames/s (runs: ${fps1.map((f) => f.toFixed(0)).join(', ')}) |`,
     `| saturation, ${streams} streams, 2 workers | ${best2.toFixed(1)} frames/s (runs: ${fps2.map((f) => f.toFixed(0)).join(', ')}) |`,
     `| workers_2_over_1 (target ≥ 1.7 on 2 cores) | ${figures.workers_2_over_1.toFixed(3)} |`,
+    '',
+    `machine: ${os.availableParallelism()} cores, load average ${loadBefore.toFixed(2)} before and ${os.loadavg()[0]!.toFixed(2)} after (other processes compete with the run; both figures need a quiet machine)`,
   ].join('\n');
   return { table, figures };
 }
