@@ -269,13 +269,13 @@ function checkWindow(window: Window, n: number): void {
 const MIN_ENERGY = 2 ** -1000;
 const MAX_ENERGY = 2 ** 1000;
 
-/** `prefix` + 're' or 'im', whichever holds more of the energy, is named in the error. */
+/** `prefix` + 're' or 'im', whichever holds the entry of largest magnitude, is named in the error. */
 function checkEnergy(prefix: string, re: number[], im: number[] | undefined, why: string): void {
-  const sumOfSquares = (values: number[]) => values.reduce((acc, v) => acc + v * v, 0);
-  const reEnergy = sumOfSquares(re);
-  const imEnergy = sumOfSquares(im ?? []);
-  const energy = reEnergy + imEnergy;
-  const field = `${prefix}${imEnergy > reEnergy ? 'im' : 're'}`;
+  let energy = 0;
+  for (const v of re) energy += v * v;
+  for (const v of im ?? []) energy += v * v;
+  const peak = (values: number[]) => values.reduce((m, v) => Math.max(m, Math.abs(v)), 0);
+  const field = `${prefix}${peak(im ?? []) > peak(re) ? 'im' : 're'}`;
   if (energy === 0 && re.every((v) => v === 0) && (im ?? []).every((v) => v === 0)) fail(prefix === '' ? 're' : prefix.slice(0, -1), `is all zero; ${why}`);
   if (!(energy >= MIN_ENERGY)) fail(field, 'is too small: the sum of squares of the entries is below 2^-1000; scale them up');
   if (!(energy <= MAX_ENERGY)) fail(field, 'has entries too large: the sum of squares of the entries exceeds 2^1000; scale them down');

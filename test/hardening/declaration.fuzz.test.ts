@@ -133,6 +133,22 @@ describe('operator-description validator under hostile descriptions', () => {
     recordFigures('operator validator: sizes beyond the limits', { inputs: sum(verdicts), crashes: 0, refused: verdicts.get('refused') ?? 0 });
   });
 
+  it('former counterexamples stay refused, naming the field', () => {
+    // Found by the properties above; each was accepted once and made every frame of its stream fail.
+    const cases: Array<[object, string]> = [
+      [{ kind: 'gabor', n: 2, window: { kind: 'explicit', re: [0, 0], im: [0, -5e-324] } }, 'window.im'],
+      [{ kind: 'matrix', rows: 1, cols: 2, re: [0, 0] }, 're'],
+      [{ kind: 'matrix', rows: 1, cols: 2, re: [1e308, 1e308] }, 're'],
+      [{ kind: 'matrix', rows: 1, cols: 2, re: [1, 0], im: [0, -1.3407807929942597e154] }, 'im'],
+      [{ kind: 'matrix', rows: 1, cols: 2, re: [3, 0], im: [0, -3.2733906078961426e150] }, 'im'],
+      [{ kind: 'matrix', rows: 1, cols: 2, re: [1e-160, 0] }, 're'],
+    ];
+    for (const [description, field] of cases) {
+      expect(() => parseOperatorDescription(description)).toThrow(expect.objectContaining({ field }));
+      expect(judgeOperator(description)).toBe('refused');
+    }
+  });
+
   it('arbitrary values of any shape are refused cleanly', () => {
     let inputs = 0;
     fc.assert(
