@@ -23,7 +23,8 @@ export interface ClusterSettings {
 }
 
 export const DEFAULT_RENEW_MS = 1000;
-export const DEFAULT_LEASE_TTL_MS = 3000;
+/** Generous against event-loop stalls of a saturated node; a dead node's partitions move after about this long. */
+export const DEFAULT_LEASE_TTL_MS = 5000;
 
 export interface NatsHandles {
   nc: NatsConnection;

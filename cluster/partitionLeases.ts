@@ -87,8 +87,10 @@ export class PartitionLeases {
   }
 
   private async balance(): Promise<void> {
-    const live = await collect(await this.h.nodes.keys());
-    const share = Math.ceil(this.s.partitions / Math.max(1, live.length));
+    // One message per live node (history 1; the TTL removes dead ones). A key listing would
+    // walk a bucket whose entries expire meanwhile, and can wait for an entry that is gone.
+    const live = (await this.h.nodes.status()).values;
+    const share = Math.ceil(this.s.partitions / Math.max(1, live));
     const kept = this.owned.size - this.releasing.size;
     if (kept > share) {
       // Hand over the highest-numbered extras; not awaited, renewal goes on meanwhile.
@@ -105,6 +107,11 @@ export class PartitionLeases {
         this.owned.set(p, await this.h.leases.update(leaseKey(p), this.s.nodeId, revision));
       } catch (err) {
         if (!this.owned.has(p) || this.releasing.has(p)) continue; // being handed over
+        // Only a revision mismatch means someone else holds it; a slow answer is retried next round.
+        if (!/wrong last sequence/i.test((err as Error).message)) {
+          this.log.warn({ partition: p, err: (err as Error).message }, 'lease renewal not answered; retrying next round');
+          continue;
+        }
         this.owned.delete(p);
         this.log.warn({ partition: p, err: (err as Error).message }, 'partition lease lost');
         this.handlers.lost(p);
@@ -113,12 +120,11 @@ export class PartitionLeases {
   }
 
   private async acquireUpTo(wanted: number): Promise<void> {
-    const held = new Set(await collect(await this.h.leases.keys()));
     // Each node starts its search at its own place so nodes rarely race for the same key.
     const start = fnv1a32(new TextEncoder().encode(this.s.nodeId)) % this.s.partitions;
-    for (let i = 0; i < this.s.partitions && wanted > 0; i++) {
+    for (let i = 0; i < this.s.partitions && wanted > 0 && !this.stopped; i++) {
       const p = (start + i) % this.s.partitions;
-      if (this.owned.has(p) || held.has(leaseKey(p))) continue;
+      if (this.owned.has(p)) continue;
       let revision: number;
       try {
         revision = await this.h.leases.create(leaseKey(p), this.s.nodeId);
@@ -150,10 +156,4 @@ export class PartitionLeases {
       this.log.info({ partition: p }, 'partition handed over');
     }
   }
-}
-
-async function collect(iter: AsyncIterable<string>): Promise<string[]> {
-  const out: string[] = [];
-  for await (const k of iter) out.push(k);
-  return out;
 }
