@@ -99,7 +99,7 @@ export function loadSettings(values: OptionValues, log: (line: string) => void):
       lossLimit: (num(values, 'loss-limit-percent') ?? 0.1) / 100,
       drainTimeoutMs: 30_000,
     },
-    search: { growth: 1.6, precision: quick ? 0.15 : 0.08, maxSteps: quick ? 10 : 14, stepSeconds, settleSeconds: Math.min(1, stepSeconds / 4) },
+    search: { growth: 1.6, precision: quick ? 0.15 : 0.08, maxSteps: quick ? 10 : 14, retryFailures: true, stepSeconds, settleSeconds: Math.min(1, stepSeconds / 4) },
     warmupSeconds: quick ? 3 : 5,
     holdSeconds: num(values, 'hold-seconds') ?? (quick ? 8 : 20),
     overloadFactor: quick ? 1.5 : 2,

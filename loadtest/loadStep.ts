@@ -1,7 +1,7 @@
 import { bucketQuantileMs, counterDelta, type DaemonCounters } from './daemonCounters.js';
 import { LatencyRecorder, type LatencySummary } from './latency.js';
 import type { LoadProducers, ProducerCounts } from './loadProducers.js';
-import type { ProcessSampler, UsageSummary } from './procStats.js';
+import { readMachineCpu, type ProcessSampler, type UsageSummary } from './procStats.js';
 import { perStreamRates, type LoadStream, type PreparedScenario } from './scenarios.js';
 import type { ReferenceSubscriber, SlowSubscriber, SubscriberCounts } from './subscribers.js';
 
@@ -79,7 +79,14 @@ export interface StepResult {
   /** How late frames left the generator against their schedule (already inside latency_ms). */
   send_lag_ms: LatencySummary;
   daemon: UsageSummary | null;
+  /** This process (producers and subscribers), over the step and its drain, % of one core. */
   generator_cpu_percent: number;
+  /**
+   * The whole machine over the step and its drain, % of one core (100 × cores = all busy), and
+   * what of it was neither the daemon nor this process: other programs competing for the CPUs.
+   */
+  machine_cpu_percent: number | null;
+  other_cpu_percent: number | null;
   /** Results the reference subscriber missed by falling behind itself (timing then incomplete). */
   reference_missed_behind: number;
   alerts: number;
@@ -160,6 +167,8 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
   const countersBefore = await s.readCounters();
   s.daemonSampler?.mark();
   const cpuBefore = process.cpuUsage();
+  const machineBefore = readMachineCpu();
+  const markedAt = performance.now();
 
   const start = performance.now() + 20;
   const timedFrom = start + plan.settleSeconds * 1000;
@@ -191,12 +200,15 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     };
     setTimeout(tick, Math.max(0, start - performance.now()));
   });
-  const sendEnd = performance.now();
-  const cpu = process.cpuUsage(cpuBefore);
   const drained = await waitDrained(s, limits.drainTimeoutMs);
   const answeredAt = performance.now();
   s.reference.window = null;
   const daemon = s.daemonSampler?.window() ?? null;
+  const cpu = process.cpuUsage(cpuBefore);
+  const machineAfter = readMachineCpu();
+  const windowSeconds = (performance.now() - markedAt) / 1000;
+  const generatorCpuPercent = (100 * (cpu.user + cpu.system)) / 1e6 / windowSeconds;
+  const machineCpuPercent = machineBefore && machineAfter ? (100 * (machineAfter.busySeconds - machineBefore.busySeconds)) / windowSeconds : null;
   const countersAfter = await s.readCounters();
   const after = snapshot(s);
 
@@ -234,7 +246,9 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     latency_ms: latencySummary,
     send_lag_ms: lag.summary(),
     daemon,
-    generator_cpu_percent: (100 * (cpu.user + cpu.system)) / 1000 / (sendEnd - start),
+    generator_cpu_percent: generatorCpuPercent,
+    machine_cpu_percent: machineCpuPercent,
+    other_cpu_percent: machineCpuPercent !== null && daemon ? Math.max(0, machineCpuPercent - daemon.cpuPercent - generatorCpuPercent) : null,
     reference_missed_behind: r.missedBehind,
     alerts: r.alerts,
     missed_notices: r.missedNotices,

@@ -71,6 +71,33 @@ export function sampleProcess(pid: number): ProcessSample {
   };
 }
 
+/** CPU time of the whole machine so far: busy (not idle, not waiting for I/O) and total, in seconds of one CPU. */
+export interface MachineCpu {
+  busySeconds: number;
+  totalSeconds: number;
+}
+
+/**
+ * Parses the `cpu` line of /proc/stat (proc(5): user nice system idle iowait irq softirq steal
+ * guest guest_nice, in clock ticks summed over every CPU; guest time is already inside user).
+ */
+export function machineCpuFromStat(stat: string, ticks: number): MachineCpu {
+  const line = stat.split('\n').find((l) => l.startsWith('cpu '));
+  if (line === undefined) throw new Error('no cpu line in /proc/stat');
+  const [user, nice, system, idle, iowait = 0, irq = 0, softirq = 0, steal = 0] = line.trim().split(/\s+/).slice(1).map(Number);
+  const busy = user! + nice! + system! + irq + softirq + steal;
+  return { busySeconds: busy / ticks, totalSeconds: (busy + idle! + iowait) / ticks };
+}
+
+/** The machine's CPU counters now, or undefined where /proc/stat cannot be read. */
+export function readMachineCpu(): MachineCpu | undefined {
+  try {
+    return machineCpuFromStat(readFileSync('/proc/stat', 'utf8'), clockTicksPerSecond());
+  } catch {
+    return undefined;
+  }
+}
+
 /** CPU use and memory of a process over a window of time. */
 export interface UsageSummary {
   /** CPU time over wall time, in percent of one core (200 = two cores busy). */

@@ -88,6 +88,7 @@ function stepRow(s: StepResult): Array<string | number> {
     s.daemon ? f0(s.daemon.cpuPercent) : '–',
     mb(s.daemon?.rssMaxMb),
     f0(s.generator_cpu_percent),
+    s.other_cpu_percent === null ? '–' : f0(s.other_cpu_percent),
     f1(s.send_lag_ms.p99),
     `${s.alerts} / ${s.missed_notices}`,
     s.label === WARMUP_LABEL ? 'not judged' : s.pass ? 'pass' : `fail: ${s.reasons.join('; ')}`,
@@ -96,7 +97,7 @@ function stepRow(s: StepResult): Array<string | number> {
 
 const STEP_HEADERS = [
   'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'in daemon p50 / p99 ms', 'loss %', 'refused', 'dropped',
-  'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
+  'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'other programs CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
 ];
 
 function scenarioMarkdown(s: ScenarioReport): string {
@@ -219,7 +220,8 @@ export function reportMarkdown(report: LoadReport): string {
       'Saturation is the highest offered load that passed: loads grow geometrically until a step fails, then the bracket is narrowed by geometric bisection.',
     "- `in daemon`: the daemon's own receipt-to-publication latency from its metrics histogram (bucket bounds, so an upper bound of each percentile); the rest of the end-to-end latency is the generator, the two WebSocket hops and the subscriber.",
     "- The bare solve time is the daemon's per-stream solver code (StreamSolver) run in the generator's process on the same frames, warm-started, before the load starts.",
-    '- Daemon CPU (% of one core) and resident memory come from /proc/<pid>/stat and /proc/<pid>/status of the daemon process (its worker threads included).',
+    '- Daemon CPU (% of one core) and resident memory come from /proc/<pid>/stat and /proc/<pid>/status of the daemon process (its worker threads included). ' +
+      "`other programs CPU %` is the machine's busy time (/proc/stat) less the daemon's and the generator's over the same window: other work competing for the cores.",
     '- Accounting: for every step and every scenario, frames sent = solved + refused + dropped with a notice, from the timing subscriber\'s results and `missed` notices, ' +
       "cross-checked with the producers' acks and the daemon's own counters.",
     '',

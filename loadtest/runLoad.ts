@@ -35,7 +35,7 @@ export interface LoadSettings {
   slowPolicies: BehindPolicy[];
   slowBytesPerSecond: number;
   limits: StepLimits;
-  search: Pick<SearchSettings, 'growth' | 'precision' | 'maxSteps' | 'stepSeconds' | 'settleSeconds'>;
+  search: Pick<SearchSettings, 'growth' | 'precision' | 'maxSteps' | 'retryFailures' | 'stepSeconds' | 'settleSeconds'>;
   warmupSeconds: number;
   /** Length of the run at 70 % of saturation. */
   holdSeconds: number;
@@ -370,7 +370,8 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
  */
 export function searchStart(warmup: StepResult, bareEstimateFps: number): number {
   if (warmup.daemon === null || warmup.sent === 0) return 0.25 * bareEstimateFps;
-  const cpuSecondsPerFrame = (warmup.daemon.cpuSeconds + (warmup.generator_cpu_percent / 100) * warmup.seconds) / warmup.sent;
+  // Both CPU figures cover the same window (the step and its drain).
+  const cpuSecondsPerFrame = (warmup.daemon.cpuSeconds * (1 + warmup.generator_cpu_percent / warmup.daemon.cpuPercent)) / warmup.sent;
   if (!(cpuSecondsPerFrame > 0)) return 0.25 * bareEstimateFps;
   return Math.min((0.6 * os.availableParallelism()) / cpuSecondsPerFrame, 0.25 * bareEstimateFps);
 }

@@ -81,7 +81,7 @@ describe('a whole run at a tiny fixed load', () => {
       slowPolicies: ['keep_latest'],
       slowBytesPerSecond: 32 * 1024,
       limits,
-      search: { growth: 1.6, precision: 0.2, maxSteps: 4, stepSeconds: 1, settleSeconds: 0.25 },
+      search: { growth: 1.6, precision: 0.2, maxSteps: 4, retryFailures: false, stepSeconds: 1, settleSeconds: 0.25 },
       warmupSeconds: 1,
       holdSeconds: 1,
       overloadFactor: 1.5,

@@ -5,7 +5,7 @@ import { mixtureMedian, quantile } from '../bareSolve.js';
 import { bucketQuantileMs, countersFromText, samplesByLabel, sumSamples } from '../daemonCounters.js';
 import { LatencyRecorder } from '../latency.js';
 import { packFrame } from '../loadProducers.js';
-import { cpuSecondsFromStat, kilobytesField, sampleProcess } from '../procStats.js';
+import { cpuSecondsFromStat, kilobytesField, machineCpuFromStat, sampleProcess } from '../procStats.js';
 import { buildScenario, frameShares, perStreamRates, SCENARIO_NAMES, type Scenario } from '../scenarios.js';
 import { bracket, nextLoad } from '../search.js';
 import { escapeXml, latencyPlotSvg, niceStep } from '../svgPlot.js';
@@ -68,6 +68,12 @@ describe('/proc readings', () => {
     // Layout from proc(5): pid (comm) state ppid pgrp session tty_nr tpgid flags minflt cminflt majflt cmajflt utime stime …
     const stat = '4242 (node (x) y) S 1 4242 4242 0 -1 4194304 100 0 0 0 250 50 0 0 20 0 11 0 12345 1000000 2500 0';
     expect(cpuSecondsFromStat(stat, 100)).toBeCloseTo(3, 12);
+  });
+
+  it('reads busy and total machine time from the cpu line of /proc/stat', () => {
+    // proc(5): cpu user nice system idle iowait irq softirq steal guest guest_nice (guest is inside user).
+    const stat = 'cpu  1000 50 300 8000 100 20 30 0 400 0\ncpu0 500 25 150 4000 50 10 15 0 200 0\n';
+    expect(machineCpuFromStat(stat, 100)).toEqual({ busySeconds: 14, totalSeconds: 95 });
   });
 
   it('reads kB fields of /proc/<pid>/status in bytes', () => {
