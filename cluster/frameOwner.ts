@@ -37,6 +37,8 @@ export class FrameOwner {
   private readonly pending = new Map<string, Map<number, JsMsg>>();
   /** Last seq this node published a result or drop notice for, per stream. */
   private readonly published = new Map<string, number>();
+  /** Partitions whose lease was lost: what their streams still produce here is not published. */
+  private readonly fenced = new Set<number>();
 
   constructor(private readonly d: FrameOwnerDeps) {}
 
@@ -45,6 +47,7 @@ export class FrameOwner {
   }
 
   async acquire(partition: number): Promise<void> {
+    this.fenced.delete(partition);
     const intake = new PartitionIntake(partition, (msg) => this.take(partition, msg), this.d.log);
     this.intakes.set(partition, intake);
     await intake.start(this.d.h, this.d.names, this.d.maxAckPending);
@@ -59,6 +62,8 @@ export class FrameOwner {
 
   /** Someone else holds the partition now: stop at once (results still in flight are deduplicated by seq downstream). */
   lost(partition: number): void {
+    // Fenced: its frames belong to the new owner, which solves them again from the log.
+    this.fenced.add(partition);
     void this.intakes.get(partition)?.stop();
     this.intakes.delete(partition);
     for (const s of this.streamsOf(partition)) void this.closeLocal(s, 0);
@@ -71,6 +76,10 @@ export class FrameOwner {
 
   /** Publishes what the pipeline produced and acknowledges the frames whose fate is now known. */
   handle(e: PipelineEvent): void {
+    if (e.kind !== 'dropped' && e.kind !== 'stream_closed' && this.fenced.size > 0) {
+      const stream = e.kind === 'result' ? e.result.stream : e.kind === 'missed' ? e.missed.stream : e.alert.stream;
+      if (this.fenced.has(partitionOf(stream, this.d.names.partitions))) return;
+    }
     switch (e.kind) {
       case 'result':
         this.publish(e.result.stream, { kind: 'result', result: e.result });
@@ -127,6 +136,12 @@ export class FrameOwner {
       ...(frame.sigma !== undefined ? { sigma: frame.sigma } : {}),
       receivedAt: performance.now(),
     });
+    if (!verdict.accepted && verdict.reason === 'duplicate') {
+      // A second delivery of a frame this node already took (the log's duplicate window and the
+      // gateways keep producers' own repeats out): its fate is, or will be, announced once.
+      msg.ack();
+      return;
+    }
     if (!verdict.accepted) return refuse(verdict.reason, verdict.field ? `${verdict.field}: ${verdict.detail}` : verdict.detail);
     let map = this.pending.get(stream);
     if (map === undefined) this.pending.set(stream, (map = new Map()));
