@@ -37,6 +37,8 @@ export class FrameOwner {
   private readonly pending = new Map<string, Map<number, JsMsg>>();
   /** Last seq this node published a result or drop notice for, per stream. */
   private readonly published = new Map<string, number>();
+  /** Streams being closed here; opening one again waits for that (the pipeline holds one entry per name). */
+  private readonly closing = new Map<string, Promise<void>>();
   /** Partitions whose lease was lost: what their streams still produce here is not published. */
   private readonly fenced = new Set<number>();
 
@@ -153,6 +155,7 @@ export class FrameOwner {
     let ready = this.opened.get(stream);
     if (ready === undefined) {
       ready = (async () => {
+        await this.closing.get(stream);
         const record = this.d.registry.get(stream) ?? (await this.d.registry.fetch(stream));
         if (record === undefined) return false;
         const shape = await this.d.pool.open(stream, record.declaration);
@@ -177,16 +180,27 @@ export class FrameOwner {
   }
 
   /** Finishes the stream's frames in the pipeline (at most `graceMs`), then frees its worker state. */
-  private async closeLocal(stream: string, graceMs: number): Promise<void> {
+  private closeLocal(stream: string, graceMs: number): Promise<void> {
     const ready = this.opened.get(stream);
     this.opened.delete(stream);
-    if (ready === undefined || !(await ready.catch(() => false))) return;
+    if (ready === undefined) return Promise.resolve();
+    const done = this.finishLocal(stream, ready, graceMs).finally(() => {
+      if (this.closing.get(stream) === done) this.closing.delete(stream);
+    });
+    this.closing.set(stream, done);
+    return done;
+  }
+
+  private async finishLocal(stream: string, ready: Promise<boolean>, graceMs: number): Promise<void> {
+    if (!(await ready.catch(() => false))) return;
     let timer: NodeJS.Timeout | undefined;
     await Promise.race([this.d.pipeline.closeStream(stream), new Promise((resolve) => (timer = setTimeout(resolve, Math.min(graceMs, 2 ** 31 - 1))))]);
     clearTimeout(timer);
     this.d.pool.close(stream);
     // Frames not finished stay unacknowledged in the log: the partition's next owner takes them.
     this.pending.delete(stream);
+    // Bounded: once its worker state is gone its remaining frames fail fast and the entry leaves.
+    await this.d.pipeline.closeStream(stream);
   }
 
   private streamsOf(partition: number): string[] {

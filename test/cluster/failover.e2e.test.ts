@@ -1,8 +1,9 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { Producer } from '../../clients/index.js';
-import type { MissedMessage, RefusedMessage, ResultMessage } from '../../protocol/index.js';
+import type { RefusedMessage } from '../../protocol/index.js';
 import { TestClient } from '../../daemon/test/helpers.js';
 import { dftStream } from '../../daemon/test/synthetic.js';
+import { covered, expectOnceInOrder } from './exactlyOnce.js';
 import { LocalCluster, type LocalNode, findNatsServer, waitUntil } from '../../cluster/localCluster.js';
 
 // The cluster's promise (docs/cluster.md): frames stored in the JetStream log are not lost when
@@ -71,30 +72,14 @@ describe.skipIf(nats === undefined)('cluster failover (needs nats-server; .ci/ru
     }
     await Promise.all(sends);
 
-    const covered = (name: string) => {
-      const seen = new Set<number>();
-      for (const r of watcher.ofType('result')) if (r.stream === name) seen.add(r.seq);
-      for (const m of watcher.ofType('missed')) if (m.stream === name) for (let q = m.from_seq; q <= m.to_seq; q++) seen.add(q);
-      return seen;
-    };
     const accepted = (name: string) => Array.from({ length: FRAMES }, (_, t) => t).filter((t) => !refused.has(`${name}#${t}`));
     await waitUntil(
-      () => names.every((name) => accepted(name).every((t) => covered(name).has(t))),
+      () => names.every((name) => accepted(name).every((t) => covered(watcher, name).has(t))),
       60_000,
-      () => `not every accepted frame came out within 60 s: ${names.map((n) => `${n} ${covered(n).size}/${accepted(n).length}`).join(', ')}\n${victim.id} killed; survivor ${survivor.id} log:\n${survivor.logTail()}`,
+      () => `not every accepted frame came out within 60 s: ${names.map((n) => `${n} ${covered(watcher, n).size}/${accepted(n).length}`).join(', ')}\n${victim.id} killed; survivor ${survivor.id} log:\n${survivor.logTail()}`,
     );
 
-    for (const name of names) {
-      const results = watcher.ofType('result').filter((r: ResultMessage) => r.stream === name);
-      const missed = watcher.ofType('missed').filter((m: MissedMessage) => m.stream === name);
-      const seqs = results.map((r) => r.seq);
-      // In order and once: strictly increasing result seqs.
-      expect(seqs, `${name}: results in order, none twice`).toEqual([...seqs].sort((a, b) => a - b).filter((q, i, a) => i === 0 || q !== a[i - 1]));
-      for (const t of accepted(name)) {
-        const times = seqs.filter((q) => q === t).length + missed.filter((m) => m.from_seq <= t && t <= m.to_seq).length;
-        expect(times, `${name}#${t} solved once or reported once`).toBe(1);
-      }
-    }
+    for (const name of names) expectOnceInOrder(watcher, name, accepted(name));
     // The moved streams were solved after the kill by a survivor, starting cold (the dead node
     // may have published a few more results after our snapshot, so: some later result is cold).
     for (const name of moved) {
