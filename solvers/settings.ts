@@ -7,6 +7,12 @@ import { z } from 'zod';
  */
 
 const positiveInt = z.number().int().min(1);
+/**
+ * An iteration budget. Capped so one declaration cannot hold its worker (and every stream
+ * sharing it) for minutes on a single frame; see "Limits" in docs/solvers.md.
+ */
+export const MAX_ITERATION_BUDGET = 100_000;
+const iterationBudget = positiveInt.max(MAX_ITERATION_BUDGET);
 const fraction = z.number().gt(0).lt(1);
 const nonNegative = z.number().min(0);
 
@@ -24,7 +30,7 @@ const lasso = z.strictObject({
   method: z.literal('lasso'),
   ...common,
   /** Total FISTA iterations over all continuation stages and noise-estimation rounds. */
-  maxIterations: positiveInt.default(1000),
+  maxIterations: iterationBudget.default(1000),
   /** Relative duality gap (P − D)/P to stop at. */
   tolerance: fraction.default(1e-5),
   /** Also stop when ‖x_k − x_{k−1}‖ ≤ stepTolerance · ‖x_k‖ (converged only if the gap is met). */
@@ -54,7 +60,7 @@ const noiseAwareL1 = {
 const basisPursuit = z.strictObject({
   method: z.literal('basis_pursuit'),
   ...noiseAwareL1,
-  maxIterations: positiveInt.default(5000),
+  maxIterations: iterationBudget.default(5000),
   /** Relative duality gap and relative infeasibility to stop at. */
   tolerance: fraction.default(1e-6),
 });
@@ -63,7 +69,7 @@ const reweightedL1 = z.strictObject({
   method: z.literal('reweighted_l1'),
   ...noiseAwareL1,
   /** Iterations of each weighted basis-pursuit solve. */
-  maxIterations: positiveInt.default(3000),
+  maxIterations: iterationBudget.default(3000),
   /**
    * Gap and infeasibility each weighted solve stops at. Looser than basis pursuit's: the weights
    * only need the support, and the refit (or the exact finish) settles the values.
@@ -82,8 +88,8 @@ const greedy = {
 };
 
 const omp = z.strictObject({ method: z.literal('omp'), ...greedy });
-const cosamp = z.strictObject({ method: z.literal('cosamp'), ...greedy, maxIterations: positiveInt.default(50) });
-const iht = z.strictObject({ method: z.literal('iht'), ...greedy, maxIterations: positiveInt.default(500) });
+const cosamp = z.strictObject({ method: z.literal('cosamp'), ...greedy, maxIterations: iterationBudget.default(50) });
+const iht = z.strictObject({ method: z.literal('iht'), ...greedy, maxIterations: iterationBudget.default(500) });
 
 export const solverSettingsSchema = z.discriminatedUnion('method', [lasso, basisPursuit, omp, cosamp, iht, reweightedL1]);
 

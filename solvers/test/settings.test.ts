@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { parseSolverSettings, SolverSettingsError } from '../index.js';
+import { MAX_ITERATION_BUDGET } from '../settings.js';
 
 function fieldOf(raw: unknown): string {
   try {
@@ -14,6 +15,16 @@ function fieldOf(raw: unknown): string {
 }
 
 describe('solver settings', () => {
+  it('caps every iteration budget so one declaration cannot hold its worker', () => {
+    for (const method of ['lasso', 'basis_pursuit', 'reweighted_l1', 'cosamp', 'iht']) {
+      const sparsity = method === 'cosamp' || method === 'iht' ? { sparsity: 3 } : {};
+      expect(fieldOf({ method, ...sparsity, maxIterations: MAX_ITERATION_BUDGET + 1 })).toBe('maxIterations');
+      expect(parseSolverSettings({ method, ...sparsity, maxIterations: MAX_ITERATION_BUDGET })).toMatchObject({
+        maxIterations: MAX_ITERATION_BUDGET,
+      });
+    }
+  });
+
   it('fills the documented defaults', () => {
     expect(parseSolverSettings({ method: 'lasso' })).toEqual({
       method: 'lasso',
