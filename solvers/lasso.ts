@@ -84,17 +84,17 @@ export function lassoMethod(
   let relGap = Infinity;
   let gram = warm?.gram;
   let reachedTarget = false;
-  for (;;) {
-    const final = level <= target;
+  /** One FISTA solve at λ from the current x, its spend and its state added to the totals. */
+  const solveAt = (lambda: number, tolerance: number): void => {
     const out = fista(
       A,
       y,
       x,
       {
-        lambda: final ? target : level,
+        lambda,
         weights: null,
         maxIterations: s.maxIterations - used,
-        tolerance: final ? s.tolerance : Math.max(s.tolerance, STAGE_TOLERANCE),
+        tolerance,
         stepTolerance: s.stepTolerance,
         restart: s.restart,
         finish: true,
@@ -106,6 +106,10 @@ export function lassoMethod(
     finishIterations += out.finishIterations;
     relGap = out.relGap;
     gram = out.gram;
+  };
+  for (;;) {
+    const final = level <= target;
+    solveAt(final ? target : level, final ? s.tolerance : Math.max(s.tolerance, STAGE_TOLERANCE));
     if (final) {
       reachedTarget = true;
       break;
@@ -123,26 +127,7 @@ export function lassoMethod(
       const next = Math.min(lambdaMax, fromNoise(estimate));
       if (Math.abs(next - target) <= ESTIMATION_SETTLED * target) break;
       target = next;
-      const out = fista(
-        A,
-        y,
-        x,
-        {
-          lambda: target,
-          weights: null,
-          maxIterations: s.maxIterations - used,
-          tolerance: s.tolerance,
-          stepTolerance: s.stepTolerance,
-          restart: s.restart,
-          finish: true,
-          gram,
-        },
-        ws,
-      );
-      used += out.iterations;
-      finishIterations += out.finishIterations;
-      relGap = out.relGap;
-      gram = out.gram;
+      solveAt(target, s.tolerance);
       rounds++;
     }
   }
