@@ -250,14 +250,30 @@ export function dualStart(warm: WarmState | undefined, ws: Workspace): Float64Ar
   return nu;
 }
 
-/** The certificate and evidence of a basis-pursuit solve, as solve() reports them. */
-export function basisPursuitEvidence(out: BasisPursuitOutcome, epsilon: number): Record<string, number> {
+/**
+ * A basis-pursuit solve as solve() reports it: the certificate (of the named kind) is the larger
+ * of the gap and the infeasibility, the warm state keeps a copy of the dual ν.
+ */
+export function basisPursuitMethodOutcome(
+  out: BasisPursuitOutcome,
+  certificateKind: string,
+  iterations: number,
+  epsilon: number,
+  nu: Float64Array,
+): MethodOutcome {
   return {
-    epsilon,
-    duality_gap: out.relGap,
-    primal_residual: out.infeasibility,
-    dual_residual: out.dualInfeasibility,
-    polished: out.polished ? 1 : 0,
+    iterations,
+    certificate: { kind: certificateKind, value: Math.max(out.relGap, out.infeasibility) },
+    converged: out.converged,
+    fitted: out.polished,
+    evidence: {
+      epsilon,
+      duality_gap: out.relGap,
+      primal_residual: out.infeasibility,
+      dual_residual: out.dualInfeasibility,
+      polished: out.polished ? 1 : 0,
+    },
+    warm: { dual: nu.slice() },
   };
 }
 
@@ -280,12 +296,5 @@ export function basisPursuitMethod(
     { epsilon, weights: null, maxIterations: s.maxIterations, tolerance: s.tolerance },
     ws,
   );
-  return {
-    iterations: out.iterations,
-    certificate: { kind: 'duality_gap', value: Math.max(out.relGap, out.infeasibility) },
-    converged: out.converged,
-    fitted: out.polished,
-    evidence: basisPursuitEvidence(out, epsilon),
-    warm: { dual: nu.slice() },
-  };
+  return basisPursuitMethodOutcome(out, 'duality_gap', out.iterations, epsilon, nu);
 }

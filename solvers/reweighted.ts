@@ -1,5 +1,5 @@
 import type { LinearOperator } from '../operators/types.js';
-import { basisPursuit, basisPursuitEvidence, dualStart, epsilonFor, type BasisPursuitOutcome } from './basisPursuit.js';
+import { basisPursuit, basisPursuitMethodOutcome, dualStart, epsilonFor, type BasisPursuitOutcome } from './basisPursuit.js';
 import type { MethodOutcome } from './outcome.js';
 import type { ReweightedL1Settings } from './settings.js';
 import { selectLargest, squaredModuli } from './support.js';
@@ -63,16 +63,9 @@ export function reweightedL1Method(
     iterations += out.iterations;
     solves++;
   }
-  const evidence = basisPursuitEvidence(out, epsilon);
-  evidence['weighted_solves'] = solves;
-  return {
-    iterations,
-    certificate: { kind: 'weighted_duality_gap', value: Math.max(out.relGap, out.infeasibility) },
-    converged: out.converged,
-    fitted: out.polished,
-    evidence,
-    warm: { dual: nu.slice() },
-  };
+  const outcome = basisPursuitMethodOutcome(out, 'weighted_duality_gap', iterations, epsilon, nu);
+  outcome.evidence['weighted_solves'] = solves;
+  return outcome;
 }
 
 /** Fills w_j = η/(|x_j| + η) by the adaptive rule above; false when x = 0. */
