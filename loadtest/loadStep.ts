@@ -37,6 +37,11 @@ export interface StepLimits {
   lossLimit: number;
   /** Longest wait after sending stops for every frame to be answered. */
   drainTimeoutMs: number;
+  /**
+   * A step during which other programs took more CPU than this (% of one core) is *disturbed*:
+   * its latencies say more about them than about the daemon.
+   */
+  otherCpuLimitPercent: number;
 }
 
 export interface SlowSubscriberStep {
@@ -87,6 +92,8 @@ export interface StepResult {
    */
   machine_cpu_percent: number | null;
   other_cpu_percent: number | null;
+  /** Other programs took more CPU than the limit during the step (never set when that cannot be measured). */
+  disturbed: boolean;
   /** Results the reference subscriber missed by falling behind itself (timing then incomplete). */
   reference_missed_behind: number;
   alerts: number;
@@ -209,6 +216,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
   const windowSeconds = (performance.now() - markedAt) / 1000;
   const generatorCpuPercent = (100 * (cpu.user + cpu.system)) / 1e6 / windowSeconds;
   const machineCpuPercent = machineBefore && machineAfter ? (100 * (machineAfter.busySeconds - machineBefore.busySeconds)) / windowSeconds : null;
+  const otherCpuPercent = machineCpuPercent !== null && daemon ? Math.max(0, machineCpuPercent - daemon.cpuPercent - generatorCpuPercent) : null;
   const countersAfter = await s.readCounters();
   const after = snapshot(s);
 
@@ -248,7 +256,8 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     daemon,
     generator_cpu_percent: generatorCpuPercent,
     machine_cpu_percent: machineCpuPercent,
-    other_cpu_percent: machineCpuPercent !== null && daemon ? Math.max(0, machineCpuPercent - daemon.cpuPercent - generatorCpuPercent) : null,
+    other_cpu_percent: otherCpuPercent,
+    disturbed: otherCpuPercent !== null && otherCpuPercent > limits.otherCpuLimitPercent,
     reference_missed_behind: r.missedBehind,
     alerts: r.alerts,
     missed_notices: r.missedNotices,
@@ -280,6 +289,7 @@ export function judge(step: StepResult, limits: StepLimits): string[] {
   if (step.reference_missed_behind > 0) reasons.push(`the timing subscriber fell behind (${step.reference_missed_behind} results missed)`);
   if (!step.drained) reasons.push('frames still unanswered at the drain timeout');
   if (step.failures.length > 0) reasons.push('connection or daemon errors');
+  if (reasons.length > 0 && step.disturbed) reasons.push(`disturbed: other programs took ${step.other_cpu_percent!.toFixed(0)} % CPU`);
   return reasons;
 }
 

@@ -167,3 +167,22 @@ export class ProcessSampler {
     }
   }
 }
+
+/**
+ * Waits (at most `maxMs`) until the machine's CPUs were less than `limitPercent` busy (% of one
+ * core) over a one-second window, i.e. other programs have calmed down while the load is idle.
+ * Resolves true when quiet, false at the timeout or where /proc/stat cannot be read.
+ */
+export async function waitForQuiet(limitPercent: number, maxMs: number): Promise<boolean> {
+  const deadline = performance.now() + maxMs;
+  for (;;) {
+    const before = readMachineCpu();
+    const at = performance.now();
+    await new Promise((r) => setTimeout(r, 1000));
+    const after = readMachineCpu();
+    if (!before || !after) return false;
+    const busyPercent = (100 * (after.busySeconds - before.busySeconds)) / ((performance.now() - at) / 1000);
+    if (busyPercent < limitPercent) return true;
+    if (performance.now() > deadline) return false;
+  }
+}

@@ -7,7 +7,7 @@ import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
 import { closeSession, openSession } from './loadSession.js';
 import { runStep, waitDrained, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
 import { describeMachine, finishMachine, type MachineDescription } from './machine.js';
-import { canSampleProcesses } from './procStats.js';
+import { canSampleProcesses, waitForQuiet } from './procStats.js';
 import {
   buildCustomScenario,
   buildScenario,
@@ -35,7 +35,7 @@ export interface LoadSettings {
   slowPolicies: BehindPolicy[];
   slowBytesPerSecond: number;
   limits: StepLimits;
-  search: Pick<SearchSettings, 'growth' | 'precision' | 'maxSteps' | 'retryFailures' | 'stepSeconds' | 'settleSeconds'>;
+  search: Pick<SearchSettings, 'growth' | 'precision' | 'maxSteps' | 'maxAttempts' | 'quietWaitMs' | 'stepSeconds' | 'settleSeconds'>;
   warmupSeconds: number;
   /** Length of the run at 70 % of saturation. */
   holdSeconds: number;
@@ -183,6 +183,7 @@ function settingsForReport(s: LoadSettings): Record<string, unknown> {
     slow_read_bytes_per_s: s.slowBytesPerSecond,
     p99_limit_ms: s.limits.p99LimitMs,
     loss_limit: s.limits.lossLimit,
+    other_cpu_limit_percent: s.limits.otherCpuLimitPercent,
     drain_timeout_ms: s.limits.drainTimeoutMs,
     search: s.search,
     warmup_s: s.warmupSeconds,
@@ -313,7 +314,8 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     log(
       `${report.name}: ${s.label.padEnd(10)} offered ${s.offered_fps.toFixed(0).padStart(6)}/s solved ${s.throughput_fps.toFixed(0).padStart(6)}/s ` +
         `p50 ${s.latency_ms.p50.toFixed(1)} p99 ${s.latency_ms.p99.toFixed(1)} ms loss ${(100 * s.loss_fraction).toFixed(2)} %` +
-        `${s.daemon ? ` daemon ${s.daemon.cpuPercent.toFixed(0)} % CPU ${s.daemon.rssMaxMb.toFixed(0)} MiB` : ''} ${s.pass ? 'pass' : `FAIL (${s.reasons.join('; ')})`}`,
+        `${s.daemon ? ` daemon ${s.daemon.cpuPercent.toFixed(0)} % CPU ${s.daemon.rssMaxMb.toFixed(0)} MiB` : ''}` +
+        `${s.other_cpu_percent !== null ? ` others ${s.other_cpu_percent.toFixed(0)} % CPU` : ''} ${s.pass ? 'pass' : `FAIL (${s.reasons.join('; ')})`}`,
     );
   const timeLeft = (seconds: number) => !settings.signal?.aborted && performance.now() + seconds * 1000 < deadline;
   const streams = session.prepared.streams.length;
@@ -345,11 +347,25 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
   report.first_failing_fps = outcome.firstFailingFps;
   log(`${report.name}: saturation ${outcome.saturationFps.toFixed(0)} frames/s`);
   if (outcome.saturationFps <= 0) return;
-  if (timeLeft(settings.holdSeconds)) {
-    const hold = await runStep(session, { label: '70 %', offeredFps: 0.7 * outcome.saturationFps, seconds: settings.holdSeconds, settleSeconds: settings.search.settleSeconds }, limits);
-    report.at_70pct = hold;
-    report.p99_over_median_solve_at_70pct = hold.latency_ms.p99 / report.median_bare_solve_ms;
+  // The hold gives the headline latency: repeat it (bounded) while other programs disturb it, and
+  // keep the least disturbed attempt; the others stay in the step table.
+  const holds: StepResult[] = [];
+  for (let n = 1; n <= settings.search.maxAttempts && timeLeft(settings.holdSeconds + (n > 1 ? settings.overloadSeconds : 0)); n++) {
+    if (n > 1) await waitForQuiet(limits.otherCpuLimitPercent, settings.search.quietWaitMs);
+    const hold = await runStep(
+      session,
+      { label: n === 1 ? '70 %' : `70 % (${n})`, offeredFps: 0.7 * outcome.saturationFps, seconds: settings.holdSeconds, settleSeconds: settings.search.settleSeconds },
+      limits,
+    );
+    holds.push(hold);
     stepLog(hold);
+    if (!hold.disturbed) break;
+  }
+  if (holds.length > 0) {
+    const best = holds.reduce((a, b) => ((b.other_cpu_percent ?? 0) < (a.other_cpu_percent ?? 0) ? b : a));
+    report.steps.push(...holds.filter((h) => h !== best));
+    report.at_70pct = best;
+    report.p99_over_median_solve_at_70pct = best.latency_ms.p99 / report.median_bare_solve_ms;
   }
   if (timeLeft(settings.overloadSeconds)) {
     const overload = await runStep(

@@ -1,4 +1,5 @@
-import { runStep, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
+import { runStep, type LoadSession, type StepLimits, type StepPlan, type StepResult } from './loadStep.js';
+import { waitForQuiet } from './procStats.js';
 
 /**
  * The saturation search: raise the offered load geometrically until a step breaks a limit
@@ -12,9 +13,12 @@ export interface SearchSettings {
   growth: number;
   /** Stop narrowing once lowest failing / highest passing ≤ 1 + precision. */
   precision: number;
+  /** Loads tried at most. */
   maxSteps: number;
-  /** Run a failing load a second time and count it as passing if that passes. */
-  retryFailures: boolean;
+  /** Attempts per load at most (see `tryLoad`). */
+  maxAttempts: number;
+  /** Before another attempt after a disturbed one, wait this long at most for other programs to calm down. */
+  quietWaitMs: number;
   /** Give up going down below this load. */
   minFps: number;
   stepSeconds: number;
@@ -41,23 +45,48 @@ export async function findSaturation(
   const passed: number[] = [];
   const failed: number[] = [];
   let fps = settings.startFps;
-  const attempt = async (label: string): Promise<boolean> => {
-    const step = await runStep(session, { label, offeredFps: fps, seconds: settings.stepSeconds, settleSeconds: settings.settleSeconds }, limits);
-    steps.push(step);
-    onStep(step);
-    return step.pass;
-  };
   for (let i = 0; i < settings.maxSteps && mayStart(); i++) {
-    // A failure is tried once more: other work on a shared machine only ever adds latency, so
-    // one undisturbed pass shows that the daemon carries the load (common practice, no source).
-    const pass = (await attempt(`search ${i + 1}`)) || (settings.retryFailures && mayStart() && (await attempt(`search ${i + 1} again`)));
-    (pass ? passed : failed).push(fps);
+    const plan = { label: `search ${i + 1}`, offeredFps: fps, seconds: settings.stepSeconds, settleSeconds: settings.settleSeconds };
+    const run = async (p: StepPlan) => {
+      const step = await runStep(session, p, limits);
+      onStep(step);
+      return step;
+    };
+    const attempts = await tryLoad(run, plan, settings.maxAttempts, mayStart, () => waitForQuiet(limits.otherCpuLimitPercent, settings.quietWaitMs));
+    steps.push(...attempts);
+    (attempts.some((a) => a.pass) ? passed : failed).push(fps);
     const next = nextLoad(passed, failed, settings);
     if (next === null) break;
     fps = next;
   }
   const { passing, failing } = bracket(passed, failed);
   return { steps, saturationFps: passing ?? 0, firstFailingFps: failing };
+}
+
+/**
+ * Runs one load until its verdict is clear, at most `maxAttempts` times: it passes as soon as an
+ * attempt passes, and fails after two failed attempts that were not disturbed (or when attempts
+ * run out). Other work on a shared machine only ever adds latency (common practice, no source),
+ * so one clean pass shows the daemon carries the load, while a failure is believed only when it
+ * repeats. After a disturbed attempt it first waits, bounded, for other programs to calm down.
+ */
+export async function tryLoad<S extends Pick<StepResult, 'pass' | 'disturbed'>>(
+  run: (plan: StepPlan) => Promise<S>,
+  plan: StepPlan,
+  maxAttempts: number,
+  mayStart: () => boolean,
+  waitQuiet: () => Promise<unknown>,
+): Promise<S[]> {
+  const attempts: S[] = [];
+  let cleanFailures = 0;
+  for (let n = 1; n <= maxAttempts && (n === 1 || mayStart()); n++) {
+    if (attempts.at(-1)?.disturbed) await waitQuiet();
+    const step = await run({ ...plan, label: n === 1 ? plan.label : `${plan.label} (${n})` });
+    attempts.push(step);
+    if (step.pass) break;
+    if (!step.disturbed && ++cleanFailures >= 2) break;
+  }
+  return attempts;
 }
 
 /**

@@ -15,7 +15,7 @@ import { buildScenario, prepareScenario } from '../scenarios.js';
  * notice, in three independent views) and the report files — never timing.
  */
 
-const limits = { p99LimitMs: 1e9, lossLimit: 1, drainTimeoutMs: 30_000 };
+const limits = { p99LimitMs: 1e9, lossLimit: 1, drainTimeoutMs: 30_000, otherCpuLimitPercent: 1e9 };
 
 describe('a step that overflows queues on purpose', () => {
   let daemon: ChildDaemon;
@@ -81,7 +81,7 @@ describe('a whole run at a tiny fixed load', () => {
       slowPolicies: ['keep_latest'],
       slowBytesPerSecond: 32 * 1024,
       limits,
-      search: { growth: 1.6, precision: 0.2, maxSteps: 4, retryFailures: false, stepSeconds: 1, settleSeconds: 0.25 },
+      search: { growth: 1.6, precision: 0.2, maxSteps: 4, maxAttempts: 1, quietWaitMs: 0, stepSeconds: 1, settleSeconds: 0.25 },
       warmupSeconds: 1,
       holdSeconds: 1,
       overloadFactor: 1.5,

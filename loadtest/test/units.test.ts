@@ -7,7 +7,7 @@ import { LatencyRecorder } from '../latency.js';
 import { packFrame } from '../loadProducers.js';
 import { cpuSecondsFromStat, kilobytesField, machineCpuFromStat, sampleProcess } from '../procStats.js';
 import { buildScenario, frameShares, perStreamRates, SCENARIO_NAMES, type Scenario } from '../scenarios.js';
-import { bracket, nextLoad } from '../search.js';
+import { bracket, nextLoad, tryLoad } from '../search.js';
 import { escapeXml, latencyPlotSvg, niceStep } from '../svgPlot.js';
 
 describe('latency recorder (HdrHistogram)', () => {
@@ -189,6 +189,32 @@ describe('saturation search', () => {
       }),
       { numRuns: 300 },
     );
+  });
+
+  it('believes a pass at once, a failure only when it repeats undisturbed, and waits for quiet after a disturbed attempt', async () => {
+    type Outcome = { pass: boolean; disturbed: boolean };
+    const P = { pass: true, disturbed: false };
+    const F = { pass: false, disturbed: false };
+    const D = { pass: false, disturbed: true };
+    const plan = { label: 'search 1', offeredFps: 100, seconds: 1, settleSeconds: 0 };
+    async function attempts(outcomes: Outcome[], max = 3) {
+      const labels: string[] = [];
+      let waits = 0;
+      const got = await tryLoad(
+        async (p) => (labels.push(p.label), outcomes[labels.length - 1]!),
+        plan,
+        max,
+        () => true,
+        async () => waits++,
+      );
+      return { verdict: got.some((g) => g.pass), labels, waits };
+    }
+    expect(await attempts([P])).toEqual({ verdict: true, labels: ['search 1'], waits: 0 });
+    expect(await attempts([F, P])).toEqual({ verdict: true, labels: ['search 1', 'search 1 (2)'], waits: 0 });
+    expect(await attempts([F, F, P])).toMatchObject({ verdict: false, labels: ['search 1', 'search 1 (2)'] });
+    expect(await attempts([D, F, P])).toEqual({ verdict: true, labels: ['search 1', 'search 1 (2)', 'search 1 (3)'], waits: 1 });
+    expect(await attempts([D, D, D])).toEqual({ verdict: false, labels: ['search 1', 'search 1 (2)', 'search 1 (3)'], waits: 2 });
+    expect(await attempts([F, F], 1)).toMatchObject({ verdict: false, labels: ['search 1'] });
   });
 
   it('ignores a failure below a load that passed (noise on a shared machine)', () => {
