@@ -11,7 +11,11 @@ import { MT19937 } from './mt19937.js';
  * for i = 0..m−1 swap p[i] with p[i + floor(u·(n − i))]; the result is p[0..m) sorted.
  */
 export function drawUniformIndices(n: number, m: number, seed: number): Int32Array {
-  const rng = new MT19937(seed);
+  return uniformIndicesFrom(new MT19937(seed), n, m);
+}
+
+/** The draw of drawUniformIndices from a generator already in use (it consumes m draws of rng). */
+export function uniformIndicesFrom(rng: MT19937, n: number, m: number): Int32Array {
   const p = new Int32Array(n);
   for (let i = 0; i < n; i++) p[i] = i;
   for (let i = 0; i < m; i++) {

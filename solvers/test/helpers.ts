@@ -3,6 +3,8 @@
  * MT19937 so every draw is reproducible; operators come from operators/ as the daemon builds them.
  */
 import { MT19937, buildOperator, parseOperatorDescription, type LinearOperator } from '../../operators/index.js';
+import { uniformIndicesFrom } from '../../operators/derivations.js';
+import { norm } from '../../operators/test/helpers.js';
 
 export function operator(description: unknown): LinearOperator {
   return buildOperator(parseOperatorDescription(description));
@@ -25,34 +27,20 @@ export function gaussian(rng: MT19937): number {
   return Math.sqrt(-2 * Math.log(1 - u1)) * Math.cos(2 * Math.PI * u2);
 }
 
-/** k distinct indices of 0..n−1, ascending (partial Fisher–Yates). */
-export function randomSupport(n: number, k: number, rng: MT19937): Int32Array {
-  const p = new Int32Array(n);
-  for (let i = 0; i < n; i++) p[i] = i;
-  for (let i = 0; i < k; i++) {
-    const j = i + Math.floor(rng.nextDouble() * (n - i));
-    const t = p[i]!;
-    p[i] = p[j]!;
-    p[j] = t;
-  }
-  return p.slice(0, k).sort();
-}
-
-/** A k-sparse vector of length n with standard normal amplitudes, complex (both parts) or real. */
+/**
+ * A k-sparse vector of length n with standard normal amplitudes, complex (both parts) or real;
+ * its support is drawn like a uniform sample set (partial Fisher–Yates on the same generator).
+ */
 export function sparseVector(n: number, k: number, rng: MT19937, complex: boolean): Float64Array {
   const x = new Float64Array(2 * n);
-  for (const j of randomSupport(n, k, rng)) {
+  for (const j of uniformIndicesFrom(rng, n, k)) {
     x[2 * j] = gaussian(rng);
     if (complex) x[2 * j + 1] = gaussian(rng);
   }
   return x;
 }
 
-export function norm(v: Float64Array): number {
-  let s = 0;
-  for (let i = 0; i < v.length; i++) s += v[i]! * v[i]!;
-  return Math.sqrt(s);
-}
+export { norm };
 
 /** ‖a − b‖ / ‖b‖. */
 export function relativeError(a: Float64Array, b: Float64Array): number {

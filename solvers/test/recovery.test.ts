@@ -16,6 +16,7 @@ import {
   sparseVector,
   successRate,
 } from './helpers.js';
+import { column, innerProduct } from '../../operators/test/helpers.js';
 
 const DRAWS = 50;
 const l1 = parseSolverSettings({ method: 'basis_pursuit' });
@@ -143,14 +144,10 @@ function oracleFit(A: LinearOperator, y: Float64Array, x0: Float64Array): Float6
   const support: number[] = [];
   for (let j = 0; j < A.cols; j++) if (x0[2 * j] !== 0 || x0[2 * j + 1] !== 0) support.push(j);
   const k = support.length;
-  const cols = support.map((j) => {
-    const e = new Float64Array(2 * A.cols);
-    e[2 * j] = 1;
-    return measure(A, e);
-  });
+  const cols = support.map((j) => column(A, j));
   // Gram matrix G = A_Sᴴ A_S and right side b = A_Sᴴ y (complex), solved by Gaussian elimination.
-  const G = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => cdot(cols[a]!, cols[b]!)));
-  const rhs = Array.from({ length: k }, (_, a) => cdot(cols[a]!, y));
+  const G = Array.from({ length: k }, (_, a) => Array.from({ length: k }, (_, b) => innerProduct(cols[a]!, cols[b]!)));
+  const rhs = Array.from({ length: k }, (_, a) => innerProduct(cols[a]!, y));
   const coef = solveComplex(G, rhs);
   const x = new Float64Array(2 * A.cols);
   support.forEach((j, a) => {
@@ -161,17 +158,6 @@ function oracleFit(A: LinearOperator, y: Float64Array, x0: Float64Array): Float6
 }
 
 type C = [number, number];
-
-/** ⟨a, b⟩ = Σ conj(a_i) b_i. */
-function cdot(a: Float64Array, b: Float64Array): C {
-  let re = 0;
-  let im = 0;
-  for (let i = 0; i < a.length; i += 2) {
-    re += a[i]! * b[i]! + a[i + 1]! * b[i + 1]!;
-    im += a[i]! * b[i + 1]! - a[i + 1]! * b[i]!;
-  }
-  return [re, im];
-}
 
 /** Gaussian elimination with partial pivoting on a small complex system. */
 function solveComplex(M: C[][], b: C[]): C[] {
