@@ -17,6 +17,7 @@ import {
   type LinearOperator,
   type UnitaryBasis,
 } from '../../operators/index.js';
+import { quantile, timeBatch } from './support/timing.js';
 
 interface Comparison {
   name: string;
@@ -44,18 +45,6 @@ function randomVector(length: number, seed: number): Float64Array {
   const v = new Float64Array(length);
   for (let i = 0; i < length; i++) v[i] = 2 * rng.nextDouble() - 1;
   return v;
-}
-
-/** The q-quantile (0..1) of the values, nearest rank. */
-function quantile(values: number[], q: number): number {
-  const s = [...values].sort((a, b) => a - b);
-  return s[Math.min(s.length - 1, Math.floor(q * s.length))]!;
-}
-
-function timeBatch(fn: () => void, batch: number): number {
-  const start = process.hrtime.bigint();
-  for (let i = 0; i < batch; i++) fn();
-  return Number(process.hrtime.bigint() - start) / 1e3 / batch;
 }
 
 function measure(c: Comparison, rounds: number): Measured {

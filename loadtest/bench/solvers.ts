@@ -28,24 +28,13 @@ import {
   relativeError,
   sparseVector,
 } from '../../solvers/test/helpers.js';
+import { quantile, timeBatch } from './support/timing.js';
 
 interface Row {
   figure: string;
   value: number;
   target: string;
   note: string;
-}
-
-function quantile(values: number[], q: number): number {
-  const s = [...values].sort((a, b) => a - b);
-  return s[Math.min(s.length - 1, Math.floor(q * s.length))]!;
-}
-
-/** Microseconds per call of fn over a batch. */
-function timeBatch(fn: () => void, batch: number): number {
-  const start = process.hrtime.bigint();
-  for (let i = 0; i < batch; i++) fn();
-  return Number(process.hrtime.bigint() - start) / 1e3 / batch;
 }
 
 /** Alternating batches of subject and floor; each side at its 10th percentile over the rounds. */
