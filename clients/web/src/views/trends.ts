@@ -93,28 +93,8 @@ export class TrendsView {
       },
       [[], []],
     );
-    this.iterations = mountChart(
-      hosts.iterations,
-      {
-        height: HEIGHT,
-        scales: { x: { time: true }, y: { range: (_u, _min, max) => [0, Math.max(1, max * 1.1)] } },
-        axes: [x, { ...axisStyle(), size: 44 }],
-        series: [{}, { label: 'iterations', stroke: cssColor('--indigo', '#3d4f8e'), width: 1.5, points: { show: false } }],
-        legend: { show: false },
-      },
-      [[], []],
-    );
-    this.support = mountChart(
-      hosts.support,
-      {
-        height: HEIGHT,
-        scales: { x: { time: true }, y: { range: (_u, _min, max) => [0, Math.max(1, max * 1.1)] } },
-        axes: [x, { ...axisStyle(), size: 44 }],
-        series: [{}, { label: 'support size', stroke: cssColor('--olive', '#6b7b2c'), width: 1.5, points: { show: false } }],
-        legend: { show: false },
-      },
-      [[], []],
-    );
+    this.iterations = mountCountChart(hosts.iterations, x, 'iterations', cssColor('--indigo', '#3d4f8e'));
+    this.support = mountCountChart(hosts.support, x, 'support size', cssColor('--olive', '#6b7b2c'));
   }
 
   draw(stream: StreamState, ledger: readonly LedgerEntry[]): void {
@@ -141,6 +121,21 @@ export class TrendsView {
     this.iterations.setData([x, this.columns[TREND_ITERATIONS]!.subarray(0, n)]);
     this.support.setData([x, this.columns[TREND_SUPPORT]!.subarray(0, n)]);
   }
+}
+
+/** A chart of one count per frame (iterations, support size) on a linear axis from zero. */
+function mountCountChart(host: HTMLElement, x: uPlot.Axis, label: string, stroke: string): uPlot {
+  return mountChart(
+    host,
+    {
+      height: HEIGHT,
+      scales: { x: { time: true }, y: { range: (_u, _min, max) => [0, Math.max(1, max * 1.1)] } },
+      axes: [x, { ...axisStyle(), size: 44 }],
+      series: [{}, { label, stroke, width: 1.5, points: { show: false } }],
+      legend: { show: false },
+    },
+    [[], []],
+  );
 }
 
 /** Grid lines at whole decades only (uPlot's log axis would also draw 2×…9× each decade). */
