@@ -2,7 +2,7 @@ import os from 'node:os';
 import { randomBytes } from 'node:crypto';
 import type { BehindPolicy } from '../protocol/index.js';
 import { measureBareSolve, mixtureMedian, type BareSolve } from './bareSolve.js';
-import { counterDelta, type DaemonCounters } from './daemonCounters.js';
+import { finalAccounting, slowTotals, SLOW_CATCH_UP_MS, type ScenarioAccounting, type SlowSubscriberTotals } from './accounting.js';
 import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
 import { closeSession, openSession } from './loadSession.js';
 import { runStep, waitDrained, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
@@ -59,40 +59,6 @@ export interface GroupReport {
   share_of_frames: number;
   bare_solve_median_ms: number;
   bare_solve_p90_ms: number;
-}
-
-/** sent = solved + refused + dropped, checked three ways over a whole scenario. */
-export interface ScenarioAccounting {
-  sent: number;
-  solved: number;
-  refused: number;
-  dropped: number;
-  /** From the reference subscriber's results and notices: sent − solved − refused − dropped. */
-  unaccounted: number;
-  /** From the producers' acks. */
-  acked_unaccounted: number;
-  /** The daemon's own counters against ours (null when its metrics could not be read). */
-  daemon_counters: DaemonCounters | null;
-  /** Sum of |differences| between the daemon's counters and ours (0 when they agree or were not read). */
-  daemon_counter_mismatch: number;
-  ok: boolean;
-}
-
-/**
- * What a slow subscriber got over a scenario. Every accepted frame should reach it as a result or
- * inside a `missed` notice once it has caught up (`accounted`), unless the daemon closed it.
- */
-export interface SlowSubscriberTotals {
-  policy: string;
-  results: number;
-  missed_behind: number;
-  missed_dropped: number;
-  /** Frames the daemon accepted (solved + dropped) during the scenario. */
-  accepted: number;
-  /** Every accepted frame reached it (only meaningful when it was never closed). */
-  accounted: boolean;
-  /** Closures by the daemon as the subscriber saw them ("code reason"), each followed by a reconnect. */
-  closed_by_daemon: string[];
 }
 
 export interface ScenarioReport {
@@ -274,26 +240,6 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
 /** Longest wait at the end of a scenario for frames still in flight. */
 const FINAL_DRAIN_MS = 60_000;
 
-/** Longest wait at the end of a scenario for the slow subscribers to catch up. */
-const SLOW_CATCH_UP_MS = 10_000;
-
-async function slowTotals(session: LoadSession, accepted: number, waitMs: number): Promise<SlowSubscriberTotals[]> {
-  const seen = (x: LoadSession['slow'][number]) => x.counts.results + x.counts.missedBehind + x.counts.missedDropped;
-  const deadline = performance.now() + waitMs;
-  while (performance.now() < deadline && session.slow.some((x) => x.closedByDaemon.length === 0 && seen(x) < accepted)) {
-    await new Promise((r) => setTimeout(r, 50));
-  }
-  return session.slow.map((x) => ({
-    policy: x.policy,
-    results: x.counts.results,
-    missed_behind: x.counts.missedBehind,
-    missed_dropped: x.counts.missedDropped,
-    accepted,
-    accounted: x.closedByDaemon.length === 0 && seen(x) === accepted,
-    closed_by_daemon: x.closedByDaemon.map((c) => `${c.code}${c.reason ? ` ${c.reason}` : ''}`),
-  }));
-}
-
 function groupReports(prepared: PreparedScenario, bare: BareSolve[], shares: number[]): GroupReport[] {
   return prepared.scenario.groups.map((g, i) => ({
     label: g.label,
@@ -390,31 +336,6 @@ export function searchStart(warmup: StepResult, bareEstimateFps: number): number
   const cpuSecondsPerFrame = (warmup.daemon.cpuSeconds * (1 + warmup.generator_cpu_percent / warmup.daemon.cpuPercent)) / warmup.sent;
   if (!(cpuSecondsPerFrame > 0)) return 0.25 * bareEstimateFps;
   return Math.min((0.6 * os.availableParallelism()) / cpuSecondsPerFrame, 0.25 * bareEstimateFps);
-}
-
-function finalAccounting(session: LoadSession, before: DaemonCounters | undefined, after: DaemonCounters | undefined, ownDaemon: boolean): ScenarioAccounting {
-  const p = session.producers.counts;
-  const r = session.reference.counts;
-  const solved = r.results + r.missedBehind;
-  const dropped = r.missedDropped;
-  const counters = before && after ? counterDelta(after, before) : null;
-  // Against a daemon we did not start, other clients may move its counters: compare only our own.
-  const mismatch = counters && ownDaemon
-    ? Math.abs(counters.received - p.sent) + Math.abs(counters.solved - solved) + Math.abs(counters.refused - p.refused) + Math.abs(counters.dropped - dropped)
-    : 0;
-  const unaccounted = p.sent - solved - p.refused - dropped;
-  const ackedUnaccounted = p.sent - p.refused - p.ackedSolved - p.ackedDropped;
-  return {
-    sent: p.sent,
-    solved,
-    refused: p.refused,
-    dropped,
-    unaccounted,
-    acked_unaccounted: ackedUnaccounted,
-    daemon_counters: counters,
-    daemon_counter_mismatch: mismatch,
-    ok: unaccounted === 0 && ackedUnaccounted === 0 && mismatch === 0 && p.ackedDropped === dropped,
-  };
 }
 
 /** Figure keys: lower-case words joined by '_'. */
