@@ -317,7 +317,7 @@ export async function run(args: string[]): Promise<BenchResult> {
     `| through the daemon on that schedule, send → result, mean (1 worker) | ${e2e.toFixed(2)} ms |`,
     `| the daemon's own time per frame (difference) | ${(e2e - bare).toFixed(2)} ms |`,
     `| overhead_over_solver (target ≤ 1.15) | ${figures.overhead_over_solver.toFixed(3)} |`,
-    `| saturation, ${streams} streams, 1 worker | ${best1.toFixed(1)} frames/s (runs: ${runs(fps1)}) |`,
+    `| saturation, ${streams} streams, 1 worker | ${best1.toFixed(1)} frames/s (runs: ${runs(fps1)}) = ${(1000 / best1).toFixed(2)} ms per frame against ${(sum(hot) / hot.length).toFixed(2)} bare |`,
     `| saturation, ${streams} streams, 2 workers | ${best2.toFixed(1)} frames/s (runs: ${runs(fps2)}) |`,
     `| workers_2_over_1 (target ≥ 1.7 on 2 cores) | ${figures.workers_2_over_1.toFixed(3)} |`,
     `| reference: bare solver in 1 thread / 2 threads at once | ${Math.max(...raw1).toFixed(1)} / ${Math.max(...raw2).toFixed(1)} frames/s (runs: ${runs(raw1)} / ${runs(raw2)}) |`,
