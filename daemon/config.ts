@@ -1,6 +1,7 @@
 import { existsSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import type { Logger } from 'pino';
 import { MAX_MESSAGE_BYTES } from '../protocol/index.js';
 import { ROLES, type TokenGrant } from './access.js';
@@ -70,7 +71,9 @@ export const DEFAULT_LIMITS: DaemonLimits = {
 };
 
 export function defaultStaticDir(): string | null {
-  const dir = path.resolve('clients', 'web');
+  // From this file's location, not the working directory: `sparsewire demo` run from any folder
+  // (or through a global install) must still serve the dashboard.
+  const dir = fileURLToPath(new URL('../clients/web/', import.meta.url));
   return existsSync(dir) ? dir : null;
 }
 

@@ -1,5 +1,8 @@
 import { describe, expect, it } from 'vitest';
-import { DEFAULT_LIMITS, resolveConfig } from '../config.js';
+import { existsSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { DEFAULT_LIMITS, defaultStaticDir, resolveConfig } from '../config.js';
 
 // Configuration defaults and validation (docs/daemon.md, "Configuration").
 describe('resolveConfig', () => {
@@ -18,5 +21,19 @@ describe('resolveConfig', () => {
     expect(() => resolveConfig({ logLevel: 'loud' })).toThrow(/logLevel/);
     expect(() => resolveConfig({ tokens: [{ token: 't', roles: ['root' as never] }] })).toThrow(/tokens\[0\]\.roles/);
     expect(() => resolveConfig({ tokens: [{ token: '', roles: ['watch'] }] })).toThrow(/tokens\[0\]\.token/);
+  });
+});
+
+describe('defaultStaticDir', () => {
+  it('finds the dashboard beside the daemon whatever the working directory', () => {
+    const before = process.cwd();
+    try {
+      process.chdir(os.tmpdir());
+      const dir = defaultStaticDir();
+      expect(dir).not.toBeNull();
+      expect(existsSync(path.join(dir!, 'index.html'))).toBe(true);
+    } finally {
+      process.chdir(before);
+    }
   });
 });
