@@ -73,7 +73,7 @@ export const DEFAULT_LIMITS: DaemonLimits = {
 export function defaultStaticDir(): string | null {
   // From this file's location, not the working directory: `sparsewire demo` run from any folder
   // (or through a global install) must still serve the dashboard.
-  const dir = fileURLToPath(new URL('../clients/web/', import.meta.url));
+  const dir = path.resolve(fileURLToPath(new URL('../clients/web', import.meta.url)));
   return existsSync(dir) ? dir : null;
 }
 

@@ -22,7 +22,8 @@ const CONTENT_TYPES: Record<string, string> = {
  * resolved inside `root` only (no `..` escapes, no hidden files); `/` and directories serve
  * their index.html.
  */
-export async function serveStatic(root: string, urlPath: string, res: ServerResponse, headOnly: boolean): Promise<boolean> {
+export async function serveStatic(rootDir: string, urlPath: string, res: ServerResponse, headOnly: boolean): Promise<boolean> {
+  const root = path.resolve(rootDir); // no trailing separator, so the confinement check below holds
   let decoded: string;
   try {
     decoded = decodeURIComponent(urlPath);
