@@ -5,4 +5,4 @@ export * from './names.js';
 export * from './bin.js';
 export * from './declaration.js';
 export * from './messages.js';
-export { encode, decode } from './codec.js';
+export { encode, encodeTrusted, decode } from './codec.js';

@@ -1,9 +1,11 @@
+import fc from 'fast-check';
 import { pack } from 'msgpackr';
 import { describe, expect, it } from 'vitest';
 import { decode, encode } from '../codec.js';
 import { ProtocolError } from '../errors.js';
 import { MAX_MEASUREMENTS, MAX_MESSAGE_BYTES } from '../limits.js';
-import { MESSAGE_TYPES, type Message } from '../messages.js';
+import { MESSAGE_TYPES, frameSchema, type Message } from '../messages.js';
+import { isWellFormedFrame } from '../frameCheck.js';
 import { EXAMPLES } from './examples.js';
 
 /** Compares two decoded messages; bins compare as bytes whatever their offset in a buffer. */
@@ -196,5 +198,49 @@ describe('rejections', () => {
   it('refuses to encode an invalid message', () => {
     const bad = { ...EXAMPLES.frame[0]!, y: new Float64Array(2) } as unknown as Message;
     expect(() => encode(bad)).toThrow(ProtocolError);
+  });
+});
+
+describe('frames: the direct check agrees with the schema', () => {
+  // Frames skip the schema walk when isWellFormedFrame accepts them, so it must never accept
+  // what frameSchema refuses; and it must accept ordinary frames, or the fast path is dead code.
+  /** Mostly a valid value, sometimes a wrong one: both sides of the check get exercised. */
+  const mostly = <T,>(valid: fc.Arbitrary<T>, wrong: fc.Arbitrary<unknown>) =>
+    fc.oneof({ arbitrary: valid as fc.Arbitrary<unknown>, weight: 12 }, { arbitrary: wrong, weight: 1 });
+  const nearFrame = fc.record(
+    {
+      v: mostly(fc.constant(1), fc.constantFrom(2, '1', 1.5)),
+      type: mostly(fc.constant('frame'), fc.constantFrom('frames', 'close')),
+      stream: mostly(fc.constantFrom('plant.a', 'a', 'A-9_x.y'), fc.oneof(fc.constantFrom('.bad', '', 'x'.repeat(300), 'sp ace'), fc.string())),
+      seq: mostly(fc.nat(), fc.oneof(fc.integer({ max: -1 }), fc.double(), fc.constant(Number.MAX_SAFE_INTEGER + 2))),
+      time: mostly(fc.double({ min: 0, max: 2e12, noNaN: true }), fc.oneof(fc.double(), fc.constantFrom(NaN, Infinity, -1, '5'))),
+      y: mostly(
+        fc.integer({ min: 1, max: 40 }).map((k) => new Uint8Array(16 * k)),
+        fc.oneof(fc.uint8Array({ maxLength: 70 }), fc.constantFrom(new Uint8Array(16 * (MAX_MEASUREMENTS + 1)), [1, 2], 'bytes')),
+      ),
+      sigma: mostly(fc.double({ min: 0, max: 10, noNaN: true }), fc.oneof(fc.double(), fc.constantFrom(null, -0.5, NaN))),
+      extra: fc.constantFrom(1, null),
+    },
+    { requiredKeys: ['v', 'type', 'stream', 'seq', 'time', 'y'] },
+  );
+
+  it('accepts only what frameSchema accepts', () => {
+    let fastAccepted = 0;
+    fc.assert(
+      fc.property(nearFrame, (frame) => {
+        const fast = isWellFormedFrame(frame as Record<string, unknown>);
+        if (fast) fastAccepted++;
+        if (fast) expect(frameSchema.safeParse(frame).success).toBe(true);
+      }),
+      { numRuns: 20_000 },
+    );
+    // The generator must reach the accepting side too, or the property says nothing.
+    expect(fastAccepted).toBeGreaterThan(100);
+  });
+
+  it('accepts every valid frame example, and decode still names the problem of a bad one', () => {
+    for (const msg of EXAMPLES.frame) expect(isWellFormedFrame(msg as unknown as Record<string, unknown>)).toBe(true);
+    const bad = rejection(raw({ v: 1, type: 'frame', stream: 'plant.a', seq: 1, time: 0, y: new Uint8Array(17) }));
+    expect(bad.field).toBe('y');
   });
 });
