@@ -1,6 +1,7 @@
+import type { Duplex } from 'node:stream';
 import type { Logger } from 'pino';
 import type { RawData, WebSocket } from 'ws';
-import { ProtocolError, decode, encode, type ErrorCode, type Message } from '../protocol/index.js';
+import { ProtocolError, decode, encodeTrusted, type ErrorCode, type Message } from '../protocol/index.js';
 import type { Principal } from './access.js';
 import type { DaemonCore } from './core.js';
 
@@ -32,6 +33,8 @@ export abstract class Connection {
 
   constructor(
     readonly ws: WebSocket,
+    /** The TCP (or TLS) socket under `ws`, corked while a turn's writes gather. */
+    private readonly socket: Duplex,
     readonly principal: Principal,
     protected readonly core: DaemonCore,
     endpoint: 'produce' | 'watch',
@@ -51,8 +54,14 @@ export abstract class Connection {
     this.sendError(err.code, err.message, { ...(err.ref ? { ref: err.ref } : {}), ...(err.field ? { field: err.field } : {}) });
   }
 
+  /** Sends bytes as one WebSocket message, written with the rest of this turn's writes. */
+  protected sendBytes(bytes: Uint8Array, cb?: (err?: Error) => void): void {
+    this.core.writes.hold(this.socket);
+    this.ws.send(bytes, cb);
+  }
+
   send(msg: Message): void {
-    this.deliver(encode(msg));
+    this.deliver(encodeTrusted(msg));
   }
 
   sendError(code: ErrorCode, detail: string, details: ErrorDetails = {}): void {

@@ -11,6 +11,7 @@ import { FanOut } from './fanout.js';
 import { DeclarationStore, type PersistedStream } from './persistence.js';
 import type { ProducerSession } from './producerSession.js';
 import type { SubscriberSession } from './subscriberSession.js';
+import { TurnCorker } from './turnCorker.js';
 import { WorkerError, WorkerPool } from './workerPool.js';
 
 interface StreamRecord {
@@ -37,6 +38,8 @@ export class DaemonCore {
   readonly pipeline: Pipeline;
   readonly fanout: FanOut;
   readonly producers = new Set<ProducerSession>();
+  /** Every connection's writes of one event-loop turn leave in one system call. */
+  readonly writes = new TurnCorker();
   private readonly streams = new Map<string, StreamRecord>();
   private readonly store: DeclarationStore | undefined;
   private readonly saveTimer: NodeJS.Timeout | undefined;
@@ -274,7 +277,7 @@ export class DaemonCore {
 
   /** Whether some subscriber wants the reconstructed signal of `stream` (computed only then). */
   protected wantsSignal(stream: string): boolean {
-    return [...this.fanout.subscribers].some((s) => s.viewFor(stream)?.signal === true);
+    return this.fanout.wantsSignal(stream);
   }
 
   /** Where the pipeline's events go: metrics and logs, then subscribers and producers. */

@@ -1,4 +1,4 @@
-import { encode, type MissedMessage } from '../protocol/index.js';
+import { encodeTrusted, type MissedMessage } from '../protocol/index.js';
 import type { AlertEvent, MissedRange, PublishedResult, StreamDeclaration } from '../pipeline/types.js';
 import type { DaemonMetrics } from './daemonMetrics.js';
 import { resultMessage, viewKey } from './resultViews.js';
@@ -11,7 +11,9 @@ import type { SubscriberSession } from './subscriberSession.js';
  * reconnect.
  */
 export class FanOut {
-  readonly subscribers = new Set<SubscriberSession>();
+  private readonly members = new Set<SubscriberSession>();
+  /** Per stream, the subscribers that receive its results: worked out once, forgotten when any subscription changes. */
+  private readonly audiences = new Map<string, SubscriberSession[]>();
   private readonly retained = new Map<string, PublishedResult[]>();
 
   constructor(
@@ -19,10 +21,43 @@ export class FanOut {
     private readonly retainCount: number,
   ) {}
 
+  get subscribers(): ReadonlySet<SubscriberSession> {
+    return this.members;
+  }
+
+  add(sub: SubscriberSession): void {
+    this.members.add(sub);
+    this.subscriptionsChanged();
+  }
+
+  remove(sub: SubscriberSession): void {
+    this.members.delete(sub);
+    this.subscriptionsChanged();
+  }
+
+  /** A subscriber subscribed or unsubscribed: who receives what must be worked out again. */
+  subscriptionsChanged(): void {
+    this.audiences.clear();
+  }
+
+  /** Whether some subscriber wants the reconstructed signal of `stream` (it is computed only then). */
+  wantsSignal(stream: string): boolean {
+    return this.audienceOf(stream).some((s) => s.viewFor(stream)?.signal === true);
+  }
+
   publishResult(result: PublishedResult): void {
     this.retain(result);
     const encoded = new Map<string, Uint8Array>();
-    for (const sub of this.subscribers) this.offer(sub, result, encoded);
+    for (const sub of this.audienceOf(result.stream)) this.offer(sub, result, encoded);
+  }
+
+  private audienceOf(stream: string): SubscriberSession[] {
+    let audience = this.audiences.get(stream);
+    if (audience === undefined) {
+      audience = [...this.members].filter((s) => s.viewFor(stream) !== null);
+      this.audiences.set(stream, audience);
+    }
+    return audience;
   }
 
   /** One result to one subscriber (replay after a resume). */
@@ -37,7 +72,7 @@ export class FanOut {
     const bytes = () => {
       let b = encoded.get(key);
       if (b === undefined) {
-        b = encode(resultMessage(result, view));
+        b = encodeTrusted(resultMessage(result, view));
         encoded.set(key, b);
       }
       return b;
@@ -47,9 +82,9 @@ export class FanOut {
 
   publishAlert(a: AlertEvent): void {
     let bytes: Uint8Array | undefined;
-    for (const sub of this.subscribers) {
+    for (const sub of this.members) {
       if (!sub.wantsAlerts(a.stream)) continue;
-      bytes ??= encode({ v: 1, type: 'alert', stream: a.stream, seq: a.seq, rule: a.ruleIndex, metric: a.rule.metric, state: a.state, value: a.value, limit: a.limit });
+      bytes ??= encodeTrusted({ v: 1, type: 'alert', stream: a.stream, seq: a.seq, rule: a.ruleIndex, metric: a.rule.metric, state: a.state, value: a.value, limit: a.limit });
       sub.outbox.sendNotice(bytes);
     }
   }
@@ -57,21 +92,24 @@ export class FanOut {
   /** `reason` is a DropReason, or in cluster mode the reason a stream's owner refused a stored frame. */
   publishMissed(m: Omit<MissedRange, 'reason'> & { reason: string }): void {
     let bytes: Uint8Array | undefined;
-    for (const sub of this.subscribers) {
+    for (const sub of this.members) {
       if (sub.viewFor(m.stream) === null) continue;
-      bytes ??= encode(missedMessage(m.stream, m.fromSeq, m.toSeq, m.count, m.reason));
+      bytes ??= encodeTrusted(missedMessage(m.stream, m.fromSeq, m.toSeq, m.count, m.reason));
       sub.outbox.sendNotice(bytes);
     }
   }
 
   publishStreamEvent(stream: string, event: 'declared' | 'closed', declaration?: StreamDeclaration): void {
     let bytes: Uint8Array | undefined;
-    for (const sub of this.subscribers) {
+    for (const sub of this.members) {
       if (!sub.follows(stream)) continue;
-      bytes ??= encode({ v: 1, type: 'stream_event', stream, event, ...(declaration ? { declaration } : {}) });
+      bytes ??= encodeTrusted({ v: 1, type: 'stream_event', stream, event, ...(declaration ? { declaration } : {}) });
       sub.outbox.sendNotice(bytes);
     }
-    if (event === 'closed') this.retained.delete(stream);
+    if (event === 'closed') {
+      this.retained.delete(stream);
+      this.audiences.delete(stream);
+    }
   }
 
   /** Retained results of `stream` with seq above `afterSeq`, oldest first. */

@@ -34,7 +34,7 @@ export class ProducerSession extends Connection {
       this.ws.terminate();
       return;
     }
-    this.ws.send(bytes);
+    this.sendBytes(bytes);
   }
 
   protected handle(msg: Message): Promise<void> | void {

@@ -126,7 +126,7 @@ export class DaemonServer {
     if (!this.core.access.open && open >= this.config.limits.maxConnectionsPerToken) {
       return this.refuse(socket, 429, 'too_many_connections', `this token already has ${open} open connections (limit ${this.config.limits.maxConnectionsPerToken})`);
     }
-    this.wss.handleUpgrade(req, socket, head, (ws) => this.accept(ws, endpoint, principal));
+    this.wss.handleUpgrade(req, socket, head, (ws) => this.accept(ws, socket, endpoint, principal));
   }
 
   private refuse(socket: Duplex, status: number, reason: string, detail: string): void {
@@ -139,7 +139,7 @@ export class DaemonServer {
     );
   }
 
-  private accept(ws: WebSocket, endpoint: Endpoint, principal: Principal): void {
+  private accept(ws: WebSocket, socket: Duplex, endpoint: Endpoint, principal: Principal): void {
     const id = this.nextConnectionId++;
     this.alive.set(ws, true);
     this.endpointOf.set(ws, endpoint);
@@ -148,15 +148,15 @@ export class DaemonServer {
     ws.on('error', (err) => this.log.debug({ connection: id, err: err.message }, 'connection error'));
     let release: () => void;
     if (endpoint === 'produce') {
-      const session = new ProducerSession(ws, principal, this.core, endpoint, id);
+      const session = new ProducerSession(ws, socket, principal, this.core, endpoint, id);
       this.core.producers.add(session);
       if (this.core.ingestIsPaused) ws.pause();
       release = () => this.core.releaseProducer(session);
     } else {
-      const session = new SubscriberSession(ws, principal, this.core, endpoint, id).init();
-      this.core.fanout.subscribers.add(session);
+      const session = new SubscriberSession(ws, socket, principal, this.core, endpoint, id).init();
+      this.core.fanout.add(session);
       release = () => {
-        this.core.fanout.subscribers.delete(session);
+        this.core.fanout.remove(session);
         session.dispose();
       };
     }

@@ -1,8 +1,8 @@
-import { encode, matchesStreamPattern, type Message, type SubscribeMessage, type UnsubscribeMessage, type Want } from '../protocol/index.js';
+import { encodeTrusted, matchesStreamPattern, type Message, type SubscribeMessage, type UnsubscribeMessage, type Want } from '../protocol/index.js';
 import { mayAct } from './access.js';
 import { Connection, RequestError } from './connection.js';
 import { missedMessage } from './fanout.js';
-import { Outbox } from './outbox.js';
+import { Outbox, type OutboxSocket } from './outbox.js';
 import type { ResultView } from './resultViews.js';
 
 interface Subscription {
@@ -28,11 +28,20 @@ export class SubscriberSession extends Connection {
 
   init(): this {
     const l = this.core.config.limits;
+    const ws = this.ws;
+    const socket: OutboxSocket = {
+      get bufferedAmount() {
+        return ws.bufferedAmount;
+      },
+      send: (data, cb) => this.sendBytes(data, cb),
+      close: (code, reason) => ws.close(code, reason),
+      terminate: () => ws.terminate(),
+    };
     this.outbox = new Outbox(
-      this.ws,
+      socket,
       { highBytes: l.outboxHighBytes, lowBytes: l.outboxLowBytes, hardCapBytes: l.outboxHardCapBytes, maxNotices: l.outboxMaxNotices },
       {
-        encodeMissed: (stream, from, to, count) => encode(missedMessage(stream, from, to, count, 'subscriber_behind')),
+        encodeMissed: (stream, from, to, count) => encodeTrusted(missedMessage(stream, from, to, count, 'subscriber_behind')),
         skipped: (count, policy) => this.core.metrics.resultsMissed.inc({ policy }, count),
         disconnected: (reason) => {
           this.core.metrics.connectionsClosed.inc({ endpoint: 'watch', reason });
@@ -111,6 +120,7 @@ export class SubscriberSession extends Connection {
     const sub: Subscription = { id: `sub-${this.nextId++}`, patterns, want: new Set(msg.want), topK: msg.top_k ?? DEFAULT_TOP_K };
     this.subs.set(sub.id, sub);
     this.views.clear();
+    this.core.fanout.subscriptionsChanged();
     this.outbox.policy = msg.when_behind;
     const declarations = this.core.declarationsFollowedBy(this);
     this.send({ v: 1, type: 'subscribed', ref: msg.ref, id: sub.id, streams: declarations });
@@ -120,6 +130,7 @@ export class SubscriberSession extends Connection {
   private unsubscribe(msg: UnsubscribeMessage): void {
     if (!this.subs.delete(msg.id)) throw new RequestError('invalid_field', `no subscription "${msg.id}" on this connection`, 'id');
     this.views.clear();
+    this.core.fanout.subscriptionsChanged();
     this.send({ v: 1, type: 'unsubscribed', ref: msg.ref, id: msg.id });
   }
 
@@ -135,7 +146,7 @@ export class SubscriberSession extends Connection {
       if (firstHeld > lastSeen + 1) {
         // How many results the span held is unknown (seqs may have had gaps): the span bounds it.
         const to = firstHeld - 1;
-        this.outbox.sendNotice(encode(missedMessage(stream, lastSeen + 1, to, to - lastSeen, 'not_retained')));
+        this.outbox.sendNotice(encodeTrusted(missedMessage(stream, lastSeen + 1, to, to - lastSeen, 'not_retained')));
       }
       for (const r of retained) this.core.fanout.deliverTo(this, r);
     }

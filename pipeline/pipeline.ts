@@ -1,4 +1,4 @@
-import { EMPTY, Observable, Subject, concat, defer, exhaustMap, expand, filter, from, groupBy, mergeMap, of } from 'rxjs';
+import { EMPTY, Observable, Subject, exhaustMap, filter, groupBy, mergeMap } from 'rxjs';
 import { StreamAlerts, alertValues } from './alerts.js';
 import { FrameQueue } from './frameQueue.js';
 import { SequenceTracker } from './ordering.js';
@@ -285,19 +285,20 @@ export class Pipeline {
   private drain(stream: string): Observable<PipelineEvent> {
     const entry = this.streams.get(stream);
     if (entry === undefined) return EMPTY;
-    entry.busy = true;
-    const step = (): Observable<PipelineEvent[]> =>
-      defer(() => {
-        const frame = entry.queue.shift();
-        if (frame === undefined) return EMPTY;
-        this.waitingBytes -= frame.y.byteLength;
-        return from(this.solveOne(entry, frame));
-      });
-    // One frame in flight per stream: `expand` asks for the next frame only after a solve ends.
-    return concat(
-      step().pipe(expand(() => step())),
-      defer(() => of(this.settle(entry))),
-    ).pipe(mergeMap((events) => events));
+    // One frame in flight per stream: the loop takes the next frame only after a solve ends. A
+    // plain loop inside one Observable per drain, not operators per frame: this is the hot path.
+    return new Observable<PipelineEvent>((subscriber) => {
+      entry.busy = true;
+      const run = async () => {
+        for (let frame = entry.queue.shift(); frame !== undefined; frame = entry.queue.shift()) {
+          this.waitingBytes -= frame.y.byteLength;
+          for (const event of await this.solveOne(entry, frame)) subscriber.next(event);
+        }
+        for (const event of this.settle(entry)) subscriber.next(event);
+        subscriber.complete();
+      };
+      run().catch((err: unknown) => subscriber.error(err));
+    });
   }
 
   private async solveOne(entry: StreamEntry, frame: QueuedFrame): Promise<PipelineEvent[]> {
