@@ -7,7 +7,7 @@ import {
   type OperatorDescription,
   type UnitaryBasis,
 } from '../operators/index.js';
-import { SolverSettingsError, parseSolverSettings, recoverability, solve, type RecoveryMethod, type SolverSettings } from '../solvers/index.js';
+import { SolverSettingsError, parseSolverSettings, recoverability, solve, type RecoveryMethod, type SolveBuffers, type SolverSettings } from '../solvers/index.js';
 import type { WarmState } from '../solvers/types.js';
 import type { SolveOutput, StreamDeclaration, StreamShape } from './types.js';
 
@@ -61,6 +61,8 @@ export class StreamSolver {
   /** Which phase transition applies: reweighted l1 recovers more than plain l1 (and greedy methods). */
   private readonly recovery: RecoveryMethod;
   private warm: WarmState | undefined;
+  /** Lent to every solve: a stream's steady solving allocates no large arrays. */
+  private readonly buffers: SolveBuffers;
 
   constructor(declaration: StreamDeclaration) {
     const { operator, solver } = checkDeclaration(declaration);
@@ -70,6 +72,8 @@ export class StreamSolver {
     this.recovery = solver.method === 'reweighted_l1' ? 'reweighted_l1' : 'l1';
     // The operator kind is what the recoverability table is keyed by (solvers' familyFor).
     this.shape = { rows: this.operator.rows, cols: this.operator.cols, family: operator.kind };
+    const length = 2 * this.operator.cols;
+    this.buffers = { x: new Float64Array(length), iterates: [new Float64Array(length), new Float64Array(length)] };
   }
 
   /** Solves one frame. `y` is returned in the output untouched. */
@@ -78,7 +82,7 @@ export class StreamSolver {
     const started = performance.now();
     let result;
     try {
-      result = solve(this.operator, y, this.settings, this.warm, sigma);
+      result = solve(this.operator, y, this.settings, this.warm, sigma, this.buffers);
     } catch (err) {
       this.warm = undefined; // a failed solve leaves no state to trust
       throw err;

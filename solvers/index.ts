@@ -16,6 +16,6 @@ export {
   type CosampSettings,
   type IhtSettings,
 } from './settings.js';
-export { solve, SolverInputError } from './solve.js';
+export { solve, SolverInputError, type SolveBuffers } from './solve.js';
 export { lambdaFromNoise, epsilonFromNoise, sigmaFromResidual } from './noise.js';
 export { recoverability, familyFor, type Recoverability, type RecoveryMethod, type Verdict } from './recoverability.js';

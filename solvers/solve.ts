@@ -36,7 +36,8 @@ export class SolverInputError extends Error {
  * E|e_i|² = σ² (noise.ts). It drives the λ and ε rules and the greedy stopping rule.
  *
  * Deterministic: the same inputs give bit-identical outputs. After the first call on an
- * operator, a call allocates only its result arrays (scratch lives in the operator's workspace).
+ * operator, a call allocates only its result arrays (scratch lives in the operator's workspace),
+ * and not even those when `buffers` are given.
  */
 export function solve(
   A: LinearOperator,
@@ -44,14 +45,17 @@ export function solve(
   settings: SolverSettings,
   warm?: WarmState,
   noiseSigma?: number,
+  buffers?: SolveBuffers,
 ): SolveResult {
   checkInputs(A, y, noiseSigma);
   const ws = workspaceFor(A);
   const usableWarm = usableWarmState(warm, A);
-  const x = new Float64Array(2 * A.cols);
+  const x = buffers?.x ?? new Float64Array(2 * A.cols);
+  if (x.length !== 2 * A.cols) throw new SolverInputError('buffers.x', `has length ${x.length}, expected ${2 * A.cols}`);
   if (usableWarm?.x !== undefined) x.set(usableWarm.x);
+  else x.fill(0);
   const outcome = runMethod(A, y, settings, usableWarm, noiseSigma, ws, x);
-  const iterate = x.slice();
+  const iterate = buffers === undefined ? x.slice() : spareIterate(buffers, warm, x);
 
   const supportBuffer = ws.colIndices('solve.support');
   const floor = noiseFloor(A, settings, outcome, noiseSigma, ws);
@@ -146,6 +150,26 @@ function checkInputs(A: LinearOperator, y: Float64Array, noiseSigma: number | un
   if (!(A.normBound > 0 && Number.isFinite(A.normBound))) {
     throw new SolverInputError('operator.normBound', `must be a finite positive bound, got ${A.normBound}`);
   }
+}
+
+/**
+ * Arrays a caller that solves frame after frame owns and lends to every solve, so that steady
+ * solving allocates nothing per frame (a long-lived daemon's collector then has nothing to
+ * promote): the result's `x` is `x`, and the warm state's iterate alternates between the two
+ * `iterates`. Both are overwritten by the next solve given them: use the result before that.
+ */
+export interface SolveBuffers {
+  x: Float64Array;
+  iterates: [Float64Array, Float64Array];
+}
+
+/** A copy of `x` in whichever lent iterate buffer the warm state given is not holding. */
+function spareIterate(buffers: SolveBuffers, warm: WarmState | undefined, x: Float64Array): Float64Array {
+  const [a, b] = buffers.iterates;
+  const spare = warm?.x === a ? b : a;
+  if (spare.length !== x.length) throw new SolverInputError('buffers.iterates', `have length ${spare.length}, expected ${x.length}`);
+  spare.set(x);
+  return spare;
 }
 
 /** The parts of a warm state that fit this operator. */

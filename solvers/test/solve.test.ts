@@ -46,6 +46,37 @@ describe('solve()', () => {
     }
   });
 
+  it('gives bit-identical results when the caller lends its buffers, frame after frame with warm starts', () => {
+    // Lent buffers only change where results live: a sequence of warm-started solves must
+    // match the allocating path bit for bit, for every method.
+    const rng = new MT19937(11);
+    const x0 = sparseVector(128, 5, rng, true);
+    const frames = Array.from({ length: 4 }, () => {
+      const y = measure(dftSampling(128, 40, 1), x0);
+      addNoise(y, 1e-3, rng);
+      return y;
+    });
+    for (const raw of ALL_METHODS) {
+      const settings = parseSolverSettings(raw);
+      const [A, B] = [dftSampling(128, 40, 1), dftSampling(128, 40, 1)];
+      const buffers = { x: new Float64Array(256), iterates: [new Float64Array(256), new Float64Array(256)] as [Float64Array, Float64Array] };
+      let warmA: SolveResult['warm'] | undefined;
+      let warmB: SolveResult['warm'] | undefined;
+      for (const y of frames) {
+        const a = solve(A, y, settings, warmA);
+        const b = solve(B, y, settings, warmB, undefined, buffers);
+        expect(b.x).toBe(buffers.x);
+        expect(bytes(b.x)).toEqual(bytes(a.x));
+        expect(bytes(b.warm.x!)).toEqual(bytes(a.warm.x!));
+        expect(b.iterations).toBe(a.iterations);
+        warmA = a.warm;
+        warmB = b.warm;
+      }
+    }
+    const wrong = { x: new Float64Array(10), iterates: [new Float64Array(256), new Float64Array(256)] as [Float64Array, Float64Array] };
+    expect(errorOf(() => solve(dftSampling(128, 40, 1), frames[0]!, parseSolverSettings({ method: 'lasso' }), undefined, undefined, wrong)).field).toBe('buffers.x');
+  });
+
   it('reports the evidence every method owes', () => {
     const A = gaussianMatrix(40, 100, 3);
     const x0 = sparseVector(100, 6, new MT19937(4), true);
