@@ -1,3 +1,4 @@
+import { deserialize, serialize } from 'node:v8';
 import { encodeTrusted, type MissedMessage } from '../protocol/index.js';
 import type { AlertEvent, MissedRange, PublishedResult, StreamDeclaration } from '../pipeline/types.js';
 import type { DaemonMetrics } from './daemonMetrics.js';
@@ -14,7 +15,7 @@ export class FanOut {
   private readonly members = new Set<SubscriberSession>();
   /** Per stream, the subscribers that receive its results: worked out once, forgotten when any subscription changes. */
   private readonly audiences = new Map<string, SubscriberSession[]>();
-  private readonly retained = new Map<string, PublishedResult[]>();
+  private readonly retained = new Map<string, RetainedResult[]>();
 
   constructor(
     private readonly metrics: DaemonMetrics,
@@ -114,16 +115,26 @@ export class FanOut {
 
   /** Retained results of `stream` with seq above `afterSeq`, oldest first. */
   retainedAfter(stream: string, afterSeq: number): PublishedResult[] {
-    return (this.retained.get(stream) ?? []).filter((r) => r.seq > afterSeq);
+    return (this.retained.get(stream) ?? []).filter((r) => r.seq > afterSeq).map((r) => deserialize(r.packed) as PublishedResult);
   }
 
   private retain(result: PublishedResult): void {
     if (this.retainCount === 0) return;
     let ring = this.retained.get(result.stream);
     if (ring === undefined) this.retained.set(result.stream, (ring = []));
-    ring.push(result);
+    ring.push({ seq: result.seq, packed: serialize(result) });
     if (ring.length > this.retainCount) ring.shift();
   }
+}
+
+/**
+ * A result kept for resuming subscribers, serialised: one buffer instead of a dozen objects and
+ * arrays. Thousands of streams each keep dozens of results, and as live objects they were most of
+ * what the collector had to copy and mark (pauses of tens of milliseconds under load).
+ */
+interface RetainedResult {
+  seq: number;
+  packed: Buffer;
 }
 
 export function missedMessage(stream: string, fromSeq: number, toSeq: number, count: number, reason: string): MissedMessage {
