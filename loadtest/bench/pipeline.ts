@@ -28,13 +28,14 @@
  */
 import os from 'node:os';
 import pino from 'pino';
-import WebSocket from 'ws';
+import { unpack } from 'msgpackr';
+import WebSocket, { WebSocketServer } from 'ws';
 import { RangeFeed } from '../../clients/feeds/index.js';
 import { Worker } from 'node:worker_threads';
 import { startDaemon, type RunningDaemon } from '../../daemon/index.js';
 import { StreamSolver } from '../../pipeline/streamSolver.js';
 import type { StreamDeclaration as PipelineDeclaration } from '../../pipeline/types.js';
-import { DEFAULT_QUEUE, decode, encode, float64ToBin, type Message, type StreamDeclaration } from '../../protocol/index.js';
+import { DEFAULT_QUEUE, encode, float64ToBin, type Message, type StreamDeclaration } from '../../protocol/index.js';
 import type { BenchResult } from './main.js';
 
 const WARMUP = 10;
@@ -81,12 +82,19 @@ async function bareSolveMs(set: FrameSet, intervalMs?: number): Promise<number[]
   return times;
 }
 
-/** A bare WebSocket client speaking the protocol (no library between the bench and the wire). */
+/**
+ * A bare WebSocket client speaking the protocol (no library between the bench and the wire). It
+ * unpacks without validating: it shares the daemon's thread here, and its own work would be
+ * counted as the daemon's (the tests check what the daemon sends).
+ */
 class WireClient {
   onMessage: (m: Message) => void = () => undefined;
+  /** Size of the last result message received. */
+  resultBytes = 0;
   private constructor(readonly ws: WebSocket) {
     ws.on('message', (data: Buffer) => {
-      const m = decode(new Uint8Array(data));
+      const m = unpack(data) as Message;
+      if (m.type === 'result') this.resultBytes = data.byteLength;
       // Nothing may be refused or fail in a benchmark run: stop loudly rather than wait forever.
       if (m.type === 'refused' || m.type === 'error' || m.type === 'missed') throw new Error(`benchmark run disturbed: ${JSON.stringify(m)}`);
       this.onMessage(m);
@@ -140,6 +148,9 @@ async function connect(daemon: RunningDaemon, sets: FrameSet[]) {
 
 const frame = (stream: string, seq: number, y: Float64Array): Message => ({ v: 1, type: 'frame', stream, seq, time: Date.now(), y: float64ToBin(y) });
 
+/** Size of a result message as the moderate-load subscriber receives it (the floor replies with as many bytes). */
+let resultBytes = 512;
+
 /** Time (ms) from sending each frame to receiving its result, frames paced `intervalMs` apart. */
 async function endToEndMs(set: FrameSet, intervalMs: number): Promise<number[]> {
   return withDaemon(1, async (daemon) => {
@@ -169,10 +180,60 @@ async function endToEndMs(set: FrameSet, intervalMs: number): Promise<number[]> 
       producer.send(frame(name, t, set.ys[t]!));
     }
     await done;
+    resultBytes = watcher.resultBytes;
     producer.ws.close();
     watcher.ws.close();
     return latency.slice(WARMUP);
   });
+}
+
+/**
+ * The floor under the daemon on this machine: a WebSocket server in this process that copies each
+ * frame's bytes out, hands them to a worker thread that answers at once, and sends back as many
+ * bytes as a result; frames paced like endToEndMs. What remains above this is the daemon's own
+ * work (decoding, the pipeline, quality, fan-out, acknowledgements), not the transport it is
+ * built on: WebSocket in, one thread hand-off each way, WebSocket out.
+ */
+async function transportFloorMs(set: FrameSet, intervalMs: number): Promise<number[]> {
+  const echo = new Worker(
+    "const { parentPort } = require('node:worker_threads'); parentPort.on('message', (y) => parentPort.postMessage(y, [y.buffer]));",
+    { eval: true },
+  );
+  const server = new WebSocketServer({ host: '127.0.0.1', port: 0, perMessageDeflate: false });
+  await new Promise<void>((resolve) => server.once('listening', resolve));
+  let peer: WebSocket | undefined;
+  echo.on('message', (y: Float64Array) => peer?.send(new Uint8Array(y.buffer, 0, Math.min(resultBytes, y.byteLength))));
+  server.on('connection', (ws) => {
+    peer = ws;
+    ws.on('message', (data: Buffer) => {
+      const y = new Float64Array(Math.ceil(Math.max(resultBytes, data.byteLength) / 8));
+      new Uint8Array(y.buffer).set(data);
+      echo.postMessage(y, [y.buffer]);
+    });
+  });
+  const { port } = server.address() as { port: number };
+  const client = new WebSocket(`ws://127.0.0.1:${port}`, { perMessageDeflate: false });
+  await new Promise((resolve) => client.once('open', resolve));
+  const name = set.declaration.name;
+  const times: number[] = [];
+  const roundTrip = (t: number) =>
+    new Promise<number>((resolve) => {
+      const bytes = encode(frame(name, t, set.ys[t]!));
+      client.once('message', () => resolve(performance.now() - sent));
+      const sent = performance.now();
+      client.send(bytes);
+    });
+  for (let t = 0; t < WARMUP; t++) await roundTrip(t);
+  const start = performance.now();
+  for (let t = WARMUP; t < set.ys.length; t++) {
+    const wait = start + (t - WARMUP) * intervalMs - performance.now();
+    if (wait > 0) await sleep(wait);
+    times.push(await roundTrip(t));
+  }
+  client.close();
+  server.close();
+  await echo.terminate();
+  return times;
 }
 
 /** Frames solved per second with every stream's queue kept full through credits. */
@@ -287,6 +348,7 @@ export async function run(args: string[]): Promise<BenchResult> {
   const interval = (2 * sum(hot)) / hot.length;
   const bareRuns: number[][] = [];
   const e2eRuns: number[][] = [];
+  const floorRuns: number[][] = [];
   const fps1: number[] = [];
   const fps2: number[] = [];
   const raw1: number[] = [];
@@ -294,6 +356,7 @@ export async function run(args: string[]): Promise<BenchResult> {
   for (let r = 0; r < repeats; r++) {
     bareRuns.push(await bareSolveMs(single, interval));
     e2eRuns.push(await endToEndMs(single, interval));
+    floorRuns.push(await transportFloorMs(single, interval));
     fps1.push(await saturationFps(sets, 1));
     fps2.push(await saturationFps(sets, 2));
     const raw = await rawScaling(sets);
@@ -302,10 +365,16 @@ export async function run(args: string[]): Promise<BenchResult> {
   }
   const bare = sum(fastest(bareRuns)) / frames;
   const e2e = sum(fastest(e2eRuns)) / frames;
+  const floor = sum(fastest(floorRuns)) / frames;
   const best1 = Math.max(...fps1);
   const best2 = Math.max(...fps2);
   const rawScale = Math.max(...raw2) / Math.max(...raw1);
-  const figures = { overhead_over_solver: e2e / bare, workers_2_over_1: best2 / best1, raw_two_threads_over_one: rawScale };
+  const figures = {
+    overhead_over_solver: e2e / bare,
+    transport_floor_over_solver: (bare + floor) / bare,
+    workers_2_over_1: best2 / best1,
+    raw_two_threads_over_one: rawScale,
+  };
   const runs = (xs: number[]) => xs.map((f) => f.toFixed(0)).join(', ');
   const table = [
     `pipeline: test-range feed, probe ${PROBE}, ${GRID.delays}×${GRID.dopplerTo - GRID.dopplerFrom + 1} delay-Doppler grid, ${JSON.stringify(single.declaration.solver)}, ${frames} timed frames per stream (after ${WARMUP} warm-up), best of ${repeats} repeats`,
@@ -315,8 +384,11 @@ export async function run(args: string[]): Promise<BenchResult> {
     `| bare solve back to back, mean per frame | ${(sum(hot) / hot.length).toFixed(2)} ms |`,
     `| bare solve on the moderate-load schedule (a frame every ${interval.toFixed(1)} ms), mean per frame | ${bare.toFixed(2)} ms |`,
     `| through the daemon on that schedule, send → result, mean (1 worker) | ${e2e.toFixed(2)} ms |`,
-    `| the daemon's own time per frame (difference) | ${(e2e - bare).toFixed(2)} ms |`,
+    `| the daemon's time per frame (difference) | ${(e2e - bare).toFixed(2)} ms |`,
+    `| floor: WebSocket in, a worker thread that answers at once, WebSocket out, same schedule | ${floor.toFixed(2)} ms |`,
+    `| the daemon's own work above that floor | ${(e2e - bare - floor).toFixed(2)} ms |`,
     `| overhead_over_solver (target ≤ 1.15) | ${figures.overhead_over_solver.toFixed(3)} |`,
+    `| transport_floor_over_solver (the same ratio for the floor alone) | ${figures.transport_floor_over_solver.toFixed(3)} |`,
     `| saturation, ${streams} streams, 1 worker | ${best1.toFixed(1)} frames/s (runs: ${runs(fps1)}) = ${(1000 / best1).toFixed(2)} ms per frame against ${(sum(hot) / hot.length).toFixed(2)} bare |`,
     `| saturation, ${streams} streams, 2 workers | ${best2.toFixed(1)} frames/s (runs: ${runs(fps2)}) |`,
     `| workers_2_over_1 (target ≥ 1.7 on 2 cores) | ${figures.workers_2_over_1.toFixed(3)} |`,
