@@ -29,6 +29,11 @@ export interface DaemonLimits {
    * from producer sockets (TCP pushes back) until half of it has drained.
    */
   maxQueuedBytes: number;
+  /**
+   * The slowest a live peer may read: a ping's answer may take as long as reading what was sent
+   * before it takes at this rate (plus half a heartbeat) before the peer counts as dead.
+   */
+  minReadBytesPerSecond: number;
 }
 
 export interface DaemonConfig {
@@ -46,7 +51,7 @@ export interface DaemonConfig {
   /** Dashboard files served under `/`; null = none. */
   staticDir: string | null;
   limits: DaemonLimits;
-  /** Ping interval; a peer that has not answered the previous ping is terminated. */
+  /** Ping interval; a peer whose answer is overdue is terminated (see limits.minReadBytesPerSecond). */
   heartbeatMs: number;
   /** Longest wait for accepted frames during a graceful shutdown. */
   shutdownGraceMs: number;
@@ -68,6 +73,7 @@ export const DEFAULT_LIMITS: DaemonLimits = {
   outboxHardCapBytes: 16 * 1024 * 1024,
   outboxMaxNotices: 1000,
   maxQueuedBytes: 256 * 1024 * 1024,
+  minReadBytesPerSecond: 32 * 1024,
 };
 
 export function defaultStaticDir(): string | null {
@@ -118,6 +124,7 @@ function checkConfig(c: DaemonConfig): void {
   int(l.outboxHardCapBytes, 1, 'limits.outboxHardCapBytes');
   int(l.outboxMaxNotices, 1, 'limits.outboxMaxNotices');
   int(l.maxQueuedBytes, 1, 'limits.maxQueuedBytes');
+  int(l.minReadBytesPerSecond, 1, 'limits.minReadBytesPerSecond');
   if (!(l.outboxLowBytes < l.outboxHighBytes && l.outboxHighBytes < l.outboxHardCapBytes)) {
     throw new Error('limits: outboxLowBytes < outboxHighBytes < outboxHardCapBytes is required');
   }

@@ -30,6 +30,8 @@ export interface ErrorDetails {
  */
 export abstract class Connection {
   protected readonly log: Logger;
+  /** Bytes handed to the socket so far (the heartbeat judges how long a reply may take from it). */
+  bytesSent = 0;
 
   constructor(
     readonly ws: WebSocket,
@@ -57,6 +59,7 @@ export abstract class Connection {
   /** Sends bytes as one WebSocket message, written with the rest of this turn's writes. */
   protected sendBytes(bytes: Uint8Array, cb?: (err?: Error) => void): void {
     this.core.writes.hold(this.socket);
+    this.bytesSent += bytes.byteLength;
     this.ws.send(bytes, cb);
   }
 

@@ -9,6 +9,7 @@ import { hasRole, presentedToken, type Principal, type Role } from './access.js'
 import type { DaemonConfig } from './config.js';
 import { DaemonCore } from './core.js';
 import type { OutboxStats } from './outbox.js';
+import { PeerLiveness } from './liveness.js';
 import { ProducerSession } from './producerSession.js';
 import { serveStatic } from './staticFiles.js';
 import { SubscriberSession } from './subscriberSession.js';
@@ -27,8 +28,9 @@ export class DaemonServer {
   readonly log: Logger;
   private readonly server: http.Server;
   private readonly wss: WebSocketServer;
-  private readonly alive = new WeakMap<WebSocket, boolean>();
+  private readonly liveness = new WeakMap<WebSocket, PeerLiveness>();
   private readonly endpointOf = new WeakMap<WebSocket, Endpoint>();
+
   private readonly connectionsPerGrant = new Map<string, number>();
   private readonly heartbeat: NodeJS.Timeout;
   private readonly startedAt = Date.now();
@@ -141,25 +143,27 @@ export class DaemonServer {
 
   private accept(ws: WebSocket, socket: Duplex, endpoint: Endpoint, principal: Principal): void {
     const id = this.nextConnectionId++;
-    this.alive.set(ws, true);
     this.endpointOf.set(ws, endpoint);
     this.connectionsPerGrant.set(principal.id, (this.connectionsPerGrant.get(principal.id) ?? 0) + 1);
-    ws.on('pong', () => this.alive.set(ws, true));
     ws.on('error', (err) => this.log.debug({ connection: id, err: err.message }, 'connection error'));
     let release: () => void;
+    let session: ProducerSession | SubscriberSession;
     if (endpoint === 'produce') {
-      const session = new ProducerSession(ws, socket, principal, this.core, endpoint, id);
-      this.core.producers.add(session);
+      const producer = (session = new ProducerSession(ws, socket, principal, this.core, endpoint, id));
+      this.core.producers.add(producer);
       if (this.core.ingestIsPaused) ws.pause();
-      release = () => this.core.releaseProducer(session);
+      release = () => this.core.releaseProducer(producer);
     } else {
-      const session = new SubscriberSession(ws, socket, principal, this.core, endpoint, id).init();
-      this.core.fanout.add(session);
+      const subscriber = (session = new SubscriberSession(ws, socket, principal, this.core, endpoint, id).init());
+      this.core.fanout.add(subscriber);
       release = () => {
-        this.core.fanout.remove(session);
-        session.dispose();
+        this.core.fanout.remove(subscriber);
+        subscriber.dispose();
       };
     }
+    const liveness = new PeerLiveness(() => session.bytesSent);
+    this.liveness.set(ws, liveness);
+    ws.on('pong', () => liveness.answered());
     ws.on('close', () => {
       release();
       this.connectionsPerGrant.set(principal.id, this.connectionsPerGrant.get(principal.id)! - 1);
@@ -167,20 +171,27 @@ export class DaemonServer {
     this.log.debug({ connection: id, endpoint, principal: principal.id }, 'connection accepted');
   }
 
-  /** Ping every peer; one that did not answer the previous ping is dead and terminated. */
+  /** Ping every peer; one whose answer is overdue (see PeerLiveness) is dead and terminated. */
   private beat(): void {
+    const now = performance.now();
     for (const ws of this.wss.clients) {
       // A socket we stopped reading (ingest paused) cannot show us its pongs: not its fault.
       if (ws.isPaused) continue;
-      if (this.alive.get(ws) === false) {
-        const endpoint = this.endpointOf.get(ws) ?? 'watch';
-        this.core.metrics.connectionsClosed.inc({ endpoint, reason: 'no_pong' });
-        this.log.info({ endpoint }, 'peer did not answer a ping; terminated');
-        ws.terminate();
-        continue;
+      const liveness = this.liveness.get(ws);
+      if (liveness === undefined) continue;
+      switch (liveness.check(now, this.config.heartbeatMs, this.config.limits.minReadBytesPerSecond)) {
+        case 'ping':
+          ws.ping();
+          break;
+        case 'wait':
+          break;
+        case 'dead': {
+          const endpoint = this.endpointOf.get(ws) ?? 'watch';
+          this.core.metrics.connectionsClosed.inc({ endpoint, reason: 'no_pong' });
+          this.log.info({ endpoint }, 'peer did not answer a ping; terminated');
+          ws.terminate();
+        }
       }
-      this.alive.set(ws, false);
-      ws.ping();
     }
   }
 

@@ -4,7 +4,9 @@ import https from 'node:https';
 import os from 'node:os';
 import path from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { DEFAULT_LIMITS } from '../index.js';
 import { RefusedConnection, TestClient, declare, eventually, frameMessage, metricValue, startTestDaemon, wsUrl } from './helpers.js';
+import { SlowSubscriber } from '../../loadtest/subscribers.js';
 import { dftStream } from './synthetic.js';
 
 // Connection lifecycle: dead peers found by ping, graceful shutdown, TLS.
@@ -28,6 +30,42 @@ describe('heartbeat', () => {
       await daemon.close();
     }
   });
+});
+
+describe('heartbeat and backlogs', () => {
+  it('spares a subscriber that reads slowly through a backlog and still ends one that stopped reading', async () => {
+    // Our ping waits behind the results queued before it: a subscriber reading 96 KiB/s through
+    // ~500 KB of backlog needs about five seconds to reach it, more than two 2 s heartbeats, yet
+    // it is alive. One that reads nothing (and never answers) is still found dead, once the
+    // backlog ahead of its ping would have taken a peer reading minReadBytesPerSecond (64 KiB/s
+    // here) to read. (The slow reader pauses its socket up to ~0.7 s at a time: within half a beat.)
+    const daemon = await startTestDaemon({ workers: 1, heartbeatMs: 2000, limits: { ...DEFAULT_LIMITS, minReadBytesPerSecond: 64 * 1024 } });
+    const slow = await SlowSubscriber.open({ url: daemon.url }, 'backlog', 'drop_with_notice', 96 * 1024);
+    const stalled = await TestClient.connect(wsUrl(daemon, '/v1/watch'), { autoPong: false });
+    try {
+      stalled.send({ v: 1, type: 'subscribe', ref: 's', streams: 'backlog', want: ['coefficients', 'measurements'], when_behind: 'drop_with_notice' });
+      await stalled.next((m) => m.type === 'subscribed');
+      stalled.ws.pause();
+      const s = dftStream(1024, 512, [5, 100, 333, 900]);
+      const p = await TestClient.connect(wsUrl(daemon, '/v1/produce'));
+      await declare(p, { name: 'backlog', operator: s.operator, solver: { method: 'omp', sparsity: 4 }, queue: { capacity: 128, policy: 'refuse_new' } });
+      for (let t = 0; t < 60; t++) p.send(frameMessage('backlog', t, s.measurements(t)));
+      const noPong = () => metricValue(daemon.metricsText(), 'sparsewire_connections_closed_total', { endpoint: 'watch', reason: 'no_pong' });
+      await eventually(() => slow.counts.results === 60, 'the slow subscriber read every result', 30_000);
+      expect(slow.closedByDaemon).toEqual([]);
+      await eventually(() => noPong() >= 1, 'the stalled subscriber is found dead', 30_000);
+      expect(noPong()).toBe(1);
+      await eventually(() => daemon.subscriberOutboxes().length === 1, 'its connection is gone');
+      // The slow reader answers pings again now that its backlog is read: still there two beats on.
+      await new Promise((r) => setTimeout(r, 4500));
+      expect(slow.closedByDaemon).toEqual([]);
+      expect(noPong()).toBe(1);
+      p.close();
+    } finally {
+      await slow.close();
+      await daemon.close();
+    }
+  }, 60_000);
 });
 
 describe('graceful shutdown', () => {
