@@ -60,8 +60,6 @@ const CLOSE_GRACE_MS = 1000;
 
 export class Outbox {
   policy: BehindPolicy = 'drop_with_notice';
-  /** Bytes the socket has taken from this outbox so far: it grows while the peer reads. */
-  taken = 0;
   private unconfirmed = 0;
   private behind = false;
   private closed = false;
@@ -146,7 +144,6 @@ export class Outbox {
     this.unconfirmed += bytes.byteLength;
     this.socket.send(bytes, () => {
       this.unconfirmed -= bytes.byteLength;
-      this.taken += bytes.byteLength;
       if (this.behind && !this.closed && this.pendingBytes() < this.limits.lowBytes) this.catchUp();
     });
     const pending = this.pendingBytes();
