@@ -280,18 +280,19 @@ export class DaemonCore {
     return this.fanout.wantsSignal(stream);
   }
 
-  /** Where the pipeline's events go: metrics and logs, then subscribers and producers. */
+  /** Where the pipeline's events go: subscribers first (someone waits for them), then metrics, logs and producers. */
   protected route(e: PipelineEvent): void {
-    this.count(e);
     switch (e.kind) {
       case 'result': {
         const r = e.result;
         this.fanout.publishResult(r);
+        this.count(e);
         this.streams.get(r.stream)?.producer?.noteFinished(r.stream, r.seq, 'solved');
         this.maybeResumeIngest();
         return;
       }
       case 'dropped':
+        this.count(e);
         this.streams.get(e.stream)?.producer?.noteFinished(e.stream, e.seq, 'dropped');
         this.maybeResumeIngest();
         return;
@@ -300,6 +301,7 @@ export class DaemonCore {
         return;
       case 'alert':
         this.fanout.publishAlert(e.alert);
+        this.count(e);
         return;
       case 'stream_closed':
         return;

@@ -47,9 +47,10 @@ export class FanOut {
   }
 
   publishResult(result: PublishedResult): void {
-    this.retain(result);
     const encoded = new Map<string, Uint8Array>();
     for (const sub of this.audienceOf(result.stream)) this.offer(sub, result, encoded);
+    // Kept after it is on its way: retention is bookkeeping, delivery is what someone waits for.
+    this.retain(result);
   }
 
   private audienceOf(stream: string): SubscriberSession[] {
