@@ -81,6 +81,11 @@ export interface StepResult {
   /** Frames solved over the time from the step's start until every frame was answered. */
   throughput_fps: number;
   latency_ms: LatencySummary;
+  /**
+   * The solver's own time for the same frames, as the daemon's workers measured it: the solve
+   * on a machine shared with the daemon's other threads and the generator, beside the bare one.
+   */
+  daemon_solve_ms: LatencySummary;
   /** How late frames left the generator against their schedule (already inside latency_ms). */
   send_lag_ms: LatencySummary;
   daemon: UsageSummary | null;
@@ -169,6 +174,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
   for (const stream of prepared.streams) byGroup[stream.group]!.push(stream);
 
   const latency = new LatencyRecorder();
+  const solves = new LatencyRecorder();
   const lag = new LatencyRecorder();
   const before = snapshot(s);
   const countersBefore = await s.readCounters();
@@ -179,7 +185,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
 
   const start = performance.now() + 20;
   const timedFrom = start + plan.settleSeconds * 1000;
-  s.reference.window = { recorder: latency, fromEpochMs: performance.timeOrigin + timedFrom };
+  s.reference.window = { recorder: latency, solves, fromEpochMs: performance.timeOrigin + timedFrom };
 
   // Per group: frame k is due at start + k / (group's aggregate rate) and goes to stream k mod count;
   // the step sends exactly round(aggregate rate × seconds) frames of the group.
@@ -252,6 +258,7 @@ export async function runStep(s: LoadSession, plan: StepPlan, limits: StepLimits
     loss_fraction: sent > 0 ? (refused + dropped) / sent : 0,
     throughput_fps: (1000 * solved) / (answeredAt - start),
     latency_ms: latencySummary,
+    daemon_solve_ms: solves.summary(),
     send_lag_ms: lag.summary(),
     daemon,
     generator_cpu_percent: generatorCpuPercent,

@@ -67,6 +67,7 @@ export function markdownTable(headers: string[], rows: Array<Array<string | numb
 }
 
 const f1 = (v: number) => v.toFixed(1);
+const f2 = (v: number) => v.toFixed(2);
 const f0 = (v: number) => v.toFixed(0);
 const mb = (v: number | null | undefined) => (v === null || v === undefined ? '–' : f0(v));
 const bound = (ms: number | null) => (ms === null ? '∞' : ms < 10 ? String(+ms.toFixed(1)) : f0(ms));
@@ -82,6 +83,7 @@ function stepRow(s: StepResult): Array<string | number> {
     f1(s.latency_ms.p999),
     f1(s.latency_ms.max),
     s.daemon_latency_ms ? `≤ ${bound(s.daemon_latency_ms.p50_at_most)} / ≤ ${bound(s.daemon_latency_ms.p99_at_most)}` : '–',
+    s.daemon_solve_ms.count > 0 ? `${f2(s.daemon_solve_ms.p50)} / ${f2(s.daemon_solve_ms.p99)}` : '–',
     (100 * s.loss_fraction).toFixed(2),
     s.refused,
     s.dropped,
@@ -96,7 +98,7 @@ function stepRow(s: StepResult): Array<string | number> {
 }
 
 const STEP_HEADERS = [
-  'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'in daemon p50 / p99 ms', 'loss %', 'refused', 'dropped',
+  'step', 'offered /s', 'solved /s', 'p50 ms', 'p90 ms', 'p99 ms', 'p99.9 ms', 'max ms', 'in daemon p50 / p99 ms', 'solve in daemon p50 / p99 ms', 'loss %', 'refused', 'dropped',
   'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'other programs CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
 ];
 
@@ -122,7 +124,7 @@ function scenarioMarkdown(s: ScenarioReport): string {
   out.push(
     `Saturation: **${s.saturation_fps === null ? 'not searched' : `${f0(s.saturation_fps)} frames/s`}**` +
       `${s.first_failing_fps !== null ? ` (lowest failing load ${f0(s.first_failing_fps)} frames/s)` : ''}. ` +
-      `At 70 %: ${s.at_70pct ? `p99 ${f1(s.at_70pct.latency_ms.p99)} ms = **${s.p99_over_median_solve_at_70pct!.toFixed(1)} ×** the median bare solve` : 'not run'}. ` +
+      `At 70 %: ${s.at_70pct ? `p99 ${f1(s.at_70pct.latency_ms.p99)} ms = **${s.p99_over_median_solve_at_70pct!.toFixed(1)} ×** the median bare solve${s.p99_over_median_daemon_solve_at_70pct !== null ? ` (${s.p99_over_median_daemon_solve_at_70pct.toFixed(1)} × the median solve in the daemon meanwhile, ${f2(s.at_70pct.daemon_solve_ms.p50)} ms)` : ''}` : 'not run'}. ` +
       `Daemon peak resident memory: ${s.daemon_peak_rss_mb === null ? 'not measured' : `**${f0(s.daemon_peak_rss_mb)} MiB**`}.`,
     '',
   );
@@ -219,7 +221,7 @@ export function reportMarkdown(report: LoadReport): string {
     `- A step passes when p99 ≤ ${st.p99_limit_ms} ms, loss (refused + dropped) ≤ ${(100 * Number(st.loss_limit)).toFixed(2)} %, the timing subscriber never fell behind and every frame was answered within ${Number(st.drain_timeout_ms) / 1000} s after sending stopped. ` +
       'Saturation is the highest offered load that passed: loads grow geometrically until a step fails, then the bracket is narrowed by geometric bisection.',
     "- `in daemon`: the daemon's own receipt-to-publication latency from its metrics histogram (bucket bounds, so an upper bound of each percentile); the rest of the end-to-end latency is the generator, the two WebSocket hops and the subscriber.",
-    "- The bare solve time is the daemon's per-stream solver code (StreamSolver) run in the generator's process on the same frames, warm-started, before the load starts.",
+    "- The bare solve time is the daemon's per-stream solver code (StreamSolver) run in the generator's process on the same frames, warm-started, back to back, before the load starts. `solve in daemon` is the solver time the daemon's workers reported for the timed frames themselves: the same code on a machine shared with the daemon's other threads and the generator.",
     '- Daemon CPU (% of one core) and resident memory come from /proc/<pid>/stat and /proc/<pid>/status of the daemon process (its worker threads included). ' +
       "`other programs CPU %` is the machine's busy time (/proc/stat) less the daemon's and the generator's over the same window: other work competing for the cores.",
     '- Accounting: for every step and every scenario, frames sent = solved + refused + dropped with a notice, from the timing subscriber\'s results and `missed` notices, ' +

@@ -78,6 +78,8 @@ export interface ScenarioReport {
   at_70pct: StepResult | null;
   overload: StepResult | null;
   p99_over_median_solve_at_70pct: number | null;
+  /** The same p99 over the median solve the daemon's workers reported during the hold (the solver on the shared, loaded machine). */
+  p99_over_median_daemon_solve_at_70pct: number | null;
   /** Highest resident memory of the daemon during the scenario (VmHWM), MiB. */
   daemon_peak_rss_mb: number | null;
   accounting: ScenarioAccounting;
@@ -191,6 +193,7 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     at_70pct: null,
     overload: null,
     p99_over_median_solve_at_70pct: null,
+    p99_over_median_daemon_solve_at_70pct: null,
     daemon_peak_rss_mb: null,
     accounting: { sent: 0, solved: 0, refused: 0, dropped: 0, unaccounted: 0, acked_unaccounted: 0, daemon_counters: null, daemon_counter_mismatch: 0, ok: true },
     slow_subscribers: [],
@@ -312,6 +315,7 @@ async function runPhases(session: LoadSession, report: ScenarioReport, settings:
     report.steps.push(...holds.filter((h) => h !== best));
     report.at_70pct = best;
     report.p99_over_median_solve_at_70pct = best.latency_ms.p99 / report.median_bare_solve_ms;
+    if (best.daemon_solve_ms.count > 0) report.p99_over_median_daemon_solve_at_70pct = best.latency_ms.p99 / best.daemon_solve_ms.p50;
   }
   if (timeLeft(settings.overloadSeconds)) {
     const overload = await runStep(
@@ -351,6 +355,7 @@ export function headlineFigures(scenarios: ScenarioReport[], mode: LoadSettings[
   if (head) {
     if (head.saturation_fps !== null) figures.saturation_frames_per_s = round(head.saturation_fps);
     if (head.p99_over_median_solve_at_70pct !== null) figures.p99_over_median_solve_at_70pct = round(head.p99_over_median_solve_at_70pct);
+    if (head.p99_over_median_daemon_solve_at_70pct !== null) figures.p99_over_median_daemon_solve_at_70pct = round(head.p99_over_median_daemon_solve_at_70pct);
     if (head.at_70pct) figures.p99_ms_at_70pct = round(head.at_70pct.latency_ms.p99);
     figures.median_bare_solve_ms = round(head.median_bare_solve_ms);
   }
@@ -365,6 +370,9 @@ export function headlineFigures(scenarios: ScenarioReport[], mode: LoadSettings[
       if (s === head) continue;
       if (s.saturation_fps !== null) figures[`saturation_frames_per_s_${key(s.name)}`] = round(s.saturation_fps);
       if (s.p99_over_median_solve_at_70pct !== null) figures[`p99_over_median_solve_at_70pct_${key(s.name)}`] = round(s.p99_over_median_solve_at_70pct);
+      if (s.p99_over_median_daemon_solve_at_70pct !== null) {
+        figures[`p99_over_median_daemon_solve_at_70pct_${key(s.name)}`] = round(s.p99_over_median_daemon_solve_at_70pct);
+      }
     }
   }
   return figures;

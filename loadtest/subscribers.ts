@@ -40,8 +40,11 @@ export const epochNow = (): number => performance.timeOrigin + performance.now()
 export class ReferenceSubscriber {
   readonly counts = emptyCounts();
   readonly failures = new FailureLog();
-  /** Where latencies go, and the earliest scheduled time (epoch ms) that counts. */
-  window: { recorder: LatencyRecorder; fromEpochMs: number } | null = null;
+  /**
+   * Where latencies go (and the solver time the daemon reports for the same frames), and the
+   * earliest scheduled time (epoch ms) that counts.
+   */
+  window: { recorder: LatencyRecorder; solves: LatencyRecorder; fromEpochMs: number } | null = null;
   readonly #subscriber: Subscriber;
 
   private constructor(options: ConnectionOptions) {
@@ -49,7 +52,10 @@ export class ReferenceSubscriber {
     this.#subscriber.on('result', (r) => {
       this.counts.results++;
       const w = this.window;
-      if (w && r.time >= w.fromEpochMs) w.recorder.record(epochNow() - r.time);
+      if (w && r.time >= w.fromEpochMs) {
+        w.recorder.record(epochNow() - r.time);
+        w.solves.record(r.evidence.solve_ms);
+      }
     });
     this.#subscriber.on('missed', (m) => countMissed(this.counts, m));
     this.#subscriber.on('alert', () => this.counts.alerts++);

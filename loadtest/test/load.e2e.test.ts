@@ -59,6 +59,10 @@ describe('a step that overflows queues on purpose', () => {
       expect(step.dropped).toBeGreaterThan(0);
       expect(step.solved).toBeGreaterThan(0);
       expect(step.latency_ms.count).toBe(step.solved - step.reference_missed_behind);
+      // One solver time per timed result, as the daemon's workers reported it; a solve is part of the trip.
+      expect(step.daemon_solve_ms.count).toBe(step.latency_ms.count);
+      expect(step.daemon_solve_ms.p50).toBeGreaterThan(0);
+      expect(step.daemon_solve_ms.p50).toBeLessThan(step.latency_ms.p50);
       expect(step.daemon?.rssMaxMb).toBeGreaterThan(0);
     } finally {
       await closeSession(session, false, 10_000);
