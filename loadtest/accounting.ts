@@ -37,26 +37,43 @@ export interface SlowSubscriberTotals {
   accepted: number;
   /** Every accepted frame reached it (only meaningful when it was never closed). */
   accounted: boolean;
+  /** Not yet accounted but still reading when the wait ended (its backlog outlasted SLOW_CATCH_UP_MS). */
+  still_reading: boolean;
   /** Closures by the daemon as the subscriber saw them ("code reason"), each followed by a reconnect. */
   closed_by_daemon: string[];
 }
 
-/** Longest wait at the end of a scenario for the slow subscribers to catch up. */
-export const SLOW_CATCH_UP_MS = 10_000;
+/**
+ * At the end of a scenario the slow subscribers are given time to catch up: a reader at a few
+ * hundred KiB/s may have megabytes waiting in the socket buffers. The wait lasts while one of them
+ * is still short of frames and still reading (its byte count grew within STALL_MS), at most 60 s
+ * (15 s in a quick run, which must stay under two minutes).
+ */
+export function slowCatchUpMs(mode: 'quick' | 'full'): number {
+  return mode === 'quick' ? 15_000 : 60_000;
+}
+const STALL_MS = 3000;
 
 export async function slowTotals(session: LoadSession, accepted: number, waitMs: number): Promise<SlowSubscriberTotals[]> {
   const seen = (x: LoadSession['slow'][number]) => x.counts.results + x.counts.missedBehind + x.counts.missedDropped;
+  const short = (x: LoadSession['slow'][number]) => x.closedByDaemon.length === 0 && seen(x) < accepted;
   const deadline = performance.now() + waitMs;
-  while (performance.now() < deadline && session.slow.some((x) => x.closedByDaemon.length === 0 && seen(x) < accepted)) {
+  const progress = session.slow.map((x) => ({ bytes: x.counts.bytes, at: performance.now() }));
+  const reading = (i: number) => performance.now() - progress[i]!.at < STALL_MS;
+  while (performance.now() < deadline && session.slow.some((x, i) => short(x) && reading(i))) {
     await new Promise((r) => setTimeout(r, 50));
+    session.slow.forEach((x, i) => {
+      if (x.counts.bytes !== progress[i]!.bytes) progress[i] = { bytes: x.counts.bytes, at: performance.now() };
+    });
   }
-  return session.slow.map((x) => ({
+  return session.slow.map((x, i) => ({
     policy: x.policy,
     results: x.counts.results,
     missed_behind: x.counts.missedBehind,
     missed_dropped: x.counts.missedDropped,
     accepted,
     accounted: x.closedByDaemon.length === 0 && seen(x) === accepted,
+    still_reading: short(x) && reading(i),
     closed_by_daemon: x.closedByDaemon.map((c) => `${c.code}${c.reason ? ` ${c.reason}` : ''}`),
   }));
 }

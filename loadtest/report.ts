@@ -1,5 +1,6 @@
 import { mkdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
+import { slowCatchUpMs } from './accounting.js';
 import { WARMUP_LABEL, type StepResult } from './loadStep.js';
 import type { LoadReport, ScenarioReport } from './runLoad.js';
 import { latencyPlotSvg, type PlotPanel } from './svgPlot.js';
@@ -102,7 +103,7 @@ const STEP_HEADERS = [
   'daemon CPU %', 'daemon RSS MiB', 'generator CPU %', 'other programs CPU %', 'send lag p99 ms', 'alerts / missed notices', 'verdict',
 ];
 
-function scenarioMarkdown(s: ScenarioReport): string {
+function scenarioMarkdown(s: ScenarioReport, mode: LoadReport['mode']): string {
   const out: string[] = [];
   out.push(`## Scenario \`${s.name}\`: ${s.summary}`, '');
   out.push(
@@ -155,7 +156,7 @@ function scenarioMarkdown(s: ScenarioReport): string {
   }
   if (s.slow_subscribers.length > 0) {
     out.push(
-      `Each slow subscriber over the whole scenario (after up to 10 s to catch up): of the ${s.slow_subscribers[0]!.accepted} frames the daemon accepted, ` +
+      `Each slow subscriber over the whole scenario (after waiting, while it was still reading, up to ${slowCatchUpMs(mode) / 1000} s for it to catch up): of the ${s.slow_subscribers[0]!.accepted} frames the daemon accepted, ` +
         'how many arrived as results and how many were announced as missed:',
       '',
       markdownTable(
@@ -165,7 +166,7 @@ function scenarioMarkdown(s: ScenarioReport): string {
           x.results,
           x.missed_behind,
           x.missed_dropped,
-          x.closed_by_daemon.length > 0 ? '– (was closed)' : x.accounted ? 'yes' : 'no',
+          x.closed_by_daemon.length > 0 ? '– (was closed)' : x.accounted ? 'yes' : x.still_reading ? '– (still reading its backlog)' : '**no**',
           x.closed_by_daemon.length > 0 ? `${x.closed_by_daemon.length}× (${countedList(x.closed_by_daemon)}), reconnected` : 'no',
         ]),
       ),
@@ -176,7 +177,7 @@ function scenarioMarkdown(s: ScenarioReport): string {
   if (closures.length > 0) {
     out.push(
       `The daemon closed subscriber connections (its reasons): ${closures.map(([r, n]) => `${r} ${n}`).join(', ')}. ` +
-        '`no_pong`: the peer did not answer a ping within one heartbeat interval, which a reader whose backlog in the socket buffers takes longer than that to read cannot do; ' +
+        '`no_pong`: the answer to a ping was overdue even allowing for the backlog ahead of it (docs/daemon.md, "Dead peers"); ' +
         '`hard_cap`, `fell_behind`, `too_many_notices`: the outbox limits and the subscriber\'s when_behind policy.',
       '',
     );
@@ -228,7 +229,7 @@ export function reportMarkdown(report: LoadReport): string {
       "cross-checked with the producers' acks and the daemon's own counters.",
     '',
   );
-  for (const s of report.scenarios) out.push(scenarioMarkdown(s));
+  for (const s of report.scenarios) out.push(scenarioMarkdown(s, report.mode));
   if (report.problems.length > 0) out.push('## Problems', '', ...report.problems.map((p) => `- ${p}`), '');
   return out.join('\n');
 }

@@ -2,7 +2,7 @@ import os from 'node:os';
 import { randomBytes } from 'node:crypto';
 import type { BehindPolicy } from '../protocol/index.js';
 import { measureBareSolve, mixtureMedian, type BareSolve } from './bareSolve.js';
-import { finalAccounting, slowTotals, SLOW_CATCH_UP_MS, type ScenarioAccounting, type SlowSubscriberTotals } from './accounting.js';
+import { finalAccounting, slowCatchUpMs, slowTotals, type ScenarioAccounting, type SlowSubscriberTotals } from './accounting.js';
 import { startChildDaemon, type ChildDaemon } from './daemonProcess.js';
 import { closeSession, openSession } from './loadSession.js';
 import { runStep, waitDrained, WARMUP_LABEL, type LoadSession, type StepLimits, type StepResult } from './loadStep.js';
@@ -226,7 +226,7 @@ async function runScenario(name: ScenarioName | 'custom', prefix: string, settin
     if (!report.accounting.ok) problems.push('accounting failed: see the accounting table');
     const usage = session.daemonSampler?.window();
     report.daemon_peak_rss_mb = usage?.peakRssMb ?? null;
-    report.slow_subscribers = await slowTotals(session, report.accounting.solved + report.accounting.dropped, SLOW_CATCH_UP_MS);
+    report.slow_subscribers = await slowTotals(session, report.accounting.solved + report.accounting.dropped, slowCatchUpMs(settings.mode));
   } catch (err) {
     problems.push((err as Error).message);
     report.accounting.ok = false;
