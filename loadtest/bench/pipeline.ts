@@ -8,6 +8,9 @@
  *   solves follow the same schedule, so both meet a processor that idled since the last frame.
  *   The figure is the mean time from sending a frame to receiving its result over the mean bare
  *   solve time. Target ≤ 1.15.
+ * - transport_floor_over_solver (reference): the same ratio for the transport alone — a bare
+ *   WebSocket server handing each frame to a worker thread that answers at once, on the same
+ *   schedule — so the table can say how much of the overhead is the daemon's own work.
  * - workers_2_over_1: saturation throughput (frames solved per second with every stream's queue
  *   kept full through credits) with two workers over one, four streams spread over the workers.
  *   Target ≥ 1.7 on a 2-core machine.
