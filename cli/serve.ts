@@ -43,7 +43,7 @@ const OPTIONS: OptionSpec[] = [
   { flag: 'outbox-high-bytes', env: 'SPARSEWIRE_OUTBOX_HIGH_BYTES', kind: 'int', target: 'limits.outboxHighBytes', help: 'Unsent bytes at which a subscriber counts as behind (default 1048576).' },
   { flag: 'outbox-low-bytes', env: 'SPARSEWIRE_OUTBOX_LOW_BYTES', kind: 'int', target: 'limits.outboxLowBytes', help: 'Unsent bytes below which it has caught up (default 262144).' },
   { flag: 'outbox-hard-cap-bytes', env: 'SPARSEWIRE_OUTBOX_HARD_CAP_BYTES', kind: 'int', target: 'limits.outboxHardCapBytes', help: 'Unsent bytes that terminate a connection (default 16777216).' },
-  { flag: 'outbox-max-notices', env: 'SPARSEWIRE_OUTBOX_MAX_NOTICES', kind: 'int', target: 'limits.outboxMaxNotices', help: 'Notices held for a subscriber that is behind (default 1000).' },
+  { flag: 'outbox-max-notices', env: 'SPARSEWIRE_OUTBOX_MAX_NOTICES', kind: 'int', target: 'limits.outboxMaxNotices', help: 'Alerts and stream events held for a subscriber that is behind (default 1000).' },
   { flag: 'max-queued-bytes', env: 'SPARSEWIRE_MAX_QUEUED_BYTES', kind: 'int', target: 'limits.maxQueuedBytes', help: 'Measurement bytes all queues may hold before reading from producers pauses (default 268435456).' },
   { flag: 'min-read-bytes-per-second', env: 'SPARSEWIRE_MIN_READ_BYTES_PER_SECOND', kind: 'int', target: 'limits.minReadBytesPerSecond', help: 'Slowest reading a live peer may do: a ping may wait behind a backlog this long to read (default 32768).' },
   { flag: 'cluster', env: 'SPARSEWIRE_CLUSTER', kind: 'string', target: 'cluster', help: 'Run as a cluster node on NATS JetStream at these URLs (comma-separated, e.g. nats://127.0.0.1:4222); see docs/cluster.md.' },

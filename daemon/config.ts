@@ -22,7 +22,7 @@ export interface DaemonLimits {
   outboxLowBytes: number;
   /** Unsent bytes beyond this terminate the subscriber's connection. */
   outboxHardCapBytes: number;
-  /** Notices (alerts, missed ranges, stream events) held for a subscriber that is behind. */
+  /** Alerts and stream events held for a subscriber that is behind (drop ranges are merged, not counted). */
   outboxMaxNotices: number;
   /**
    * Measurement bytes all stream queues together may hold; above it the daemon stops reading

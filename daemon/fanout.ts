@@ -93,11 +93,11 @@ export class FanOut {
 
   /** `reason` is a DropReason, or in cluster mode the reason a stream's owner refused a stored frame. */
   publishMissed(m: Omit<MissedRange, 'reason'> & { reason: string }): void {
+    const span = { stream: m.stream, fromSeq: m.fromSeq, toSeq: m.toSeq, count: m.count, reason: m.reason };
     let bytes: Uint8Array | undefined;
+    const encoded = () => (bytes ??= encodeTrusted(missedMessage(m.stream, m.fromSeq, m.toSeq, m.count, m.reason)));
     for (const sub of this.members) {
-      if (sub.viewFor(m.stream) === null) continue;
-      bytes ??= encodeTrusted(missedMessage(m.stream, m.fromSeq, m.toSeq, m.count, m.reason));
-      sub.outbox.sendNotice(bytes);
+      if (sub.viewFor(m.stream) !== null) sub.outbox.sendMissed(span, encoded);
     }
   }
 

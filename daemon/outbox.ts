@@ -7,11 +7,14 @@
  * - drop_with_notice: skip results;
  * - disconnect: close the connection (1013, try again later).
  * Skipped results are counted and announced with one `missed` notice per stream (reason
- * `subscriber_behind`) once the subscriber catches up (below the low watermark). Notices
- * (alerts, upstream missed ranges, stream events) are held in a bounded FIFO while behind.
- * Unsent bytes beyond the hard cap, or more held notices than allowed, terminate the connection.
- * Memory per subscriber is therefore bounded by the hard cap, one held result per stream and the
- * notice limit, whatever the subscriber does: it never slows the solvers or other subscribers.
+ * `subscriber_behind`) once the subscriber catches up (below the low watermark). Notices are
+ * held in order while behind: alerts and stream events one by one, up to `maxNotices`; drops
+ * announced upstream (`missed` ranges) merged into one range per stream and reason, kept where
+ * the first of them stood — a thousand streams dropping frames while a dashboard is behind must
+ * not cost it its connection. Unsent bytes beyond the hard cap, or more held alerts and events
+ * than allowed, terminate the connection. Memory per subscriber is therefore bounded by the hard
+ * cap, one held result and a few ranges per stream and the notice limit, whatever the subscriber
+ * does: it never slows the solvers or other subscribers.
  */
 
 export type BehindPolicy = 'keep_latest' | 'drop_with_notice' | 'disconnect';
@@ -30,9 +33,18 @@ export interface OutboxLimits {
   maxNotices: number;
 }
 
+/** Sequence numbers of a stream that a subscriber will not get as results, and why. */
+export interface MissedSpan {
+  stream: string;
+  fromSeq: number;
+  toSeq: number;
+  count: number;
+  reason: string;
+}
+
 export interface OutboxHooks {
-  /** Encodes the `missed` notice for results skipped while behind. */
-  encodeMissed(stream: string, fromSeq: number, toSeq: number, count: number): Uint8Array;
+  /** Encodes a `missed` notice (skipped while behind: reason `subscriber_behind`). */
+  encodeMissed(span: MissedSpan): Uint8Array;
   /** Results skipped (for metrics). */
   skipped(count: number, policy: BehindPolicy): void;
   /** The outbox closed the connection. */
@@ -44,6 +56,9 @@ interface Skipped {
   toSeq: number;
   count: number;
 }
+
+/** A notice held while behind: bytes as they came, or a drop range that later ones merge into. */
+type HeldNotice = { bytes: Uint8Array } | { span: MissedSpan };
 
 export interface OutboxStats {
   pendingBytes: number;
@@ -63,7 +78,11 @@ export class Outbox {
   private unconfirmed = 0;
   private behind = false;
   private closed = false;
-  private readonly notices: Uint8Array[] = [];
+  private readonly notices: HeldNotice[] = [];
+  /** Alerts and stream events among the held notices (the ones maxNotices bounds). */
+  private heldEvents = 0;
+  /** The held drop range of each stream and reason, to merge later ones into. */
+  private readonly heldSpans = new Map<string, MissedSpan>();
   private readonly held = new Map<string, { seq: number; encode: () => Uint8Array }>();
   private readonly skippedRanges = new Map<string, Skipped>();
 
@@ -88,12 +107,33 @@ export class Outbox {
     };
   }
 
-  /** A message that is not a result: sent now, or held in order while behind. */
+  /** A message that is neither a result nor a drop range: sent now, or held in order while behind. */
   sendNotice(bytes: Uint8Array): void {
     if (this.closed) return;
     if (!this.behind) return this.write(bytes);
-    if (this.notices.length >= this.limits.maxNotices) return this.shut('too_many_notices');
-    this.notices.push(bytes);
+    if (this.heldEvents >= this.limits.maxNotices) return this.shut('too_many_notices');
+    this.notices.push({ bytes });
+    this.heldEvents++;
+  }
+
+  /**
+   * Frames dropped upstream: announced now, or merged into the stream's held range for `reason`.
+   * `encoded` gives the notice's bytes when the caller shares one encoding among subscribers.
+   */
+  sendMissed(span: MissedSpan, encoded: () => Uint8Array = () => this.hooks.encodeMissed(span)): void {
+    if (this.closed) return;
+    if (!this.behind) return this.write(encoded());
+    const key = `${span.stream}\u0000${span.reason}`;
+    const held = this.heldSpans.get(key);
+    if (held === undefined) {
+      const copy = { ...span };
+      this.heldSpans.set(key, copy);
+      this.notices.push({ span: copy });
+      return;
+    }
+    held.fromSeq = Math.min(held.fromSeq, span.fromSeq);
+    held.toSeq = Math.max(held.toSeq, span.toSeq);
+    held.count += span.count;
   }
 
   /** A result of `stream`; `encode` is called only if and when it is sent. */
@@ -124,6 +164,8 @@ export class Outbox {
   dispose(): void {
     this.closed = true;
     this.notices.length = 0;
+    this.heldEvents = 0;
+    this.heldSpans.clear();
     this.held.clear();
     this.skippedRanges.clear();
   }
@@ -155,12 +197,16 @@ export class Outbox {
   private catchUp(): void {
     this.behind = false;
     const notices = this.notices.splice(0);
+    this.heldEvents = 0;
+    this.heldSpans.clear();
     const skipped = [...this.skippedRanges];
     this.skippedRanges.clear();
     const held = [...this.held];
     this.held.clear();
-    for (const n of notices) if (!this.closed) this.write(n);
-    for (const [stream, r] of skipped) if (!this.closed) this.write(this.hooks.encodeMissed(stream, r.fromSeq, r.toSeq, r.count));
+    for (const n of notices) if (!this.closed) this.write('bytes' in n ? n.bytes : this.hooks.encodeMissed(n.span));
+    for (const [stream, r] of skipped) {
+      if (!this.closed) this.write(this.hooks.encodeMissed({ stream, fromSeq: r.fromSeq, toSeq: r.toSeq, count: r.count, reason: 'subscriber_behind' }));
+    }
     for (const [, h] of held) if (!this.closed) this.write(h.encode());
   }
 

@@ -41,7 +41,7 @@ export class SubscriberSession extends Connection {
       socket,
       { highBytes: l.outboxHighBytes, lowBytes: l.outboxLowBytes, hardCapBytes: l.outboxHardCapBytes, maxNotices: l.outboxMaxNotices },
       {
-        encodeMissed: (stream, from, to, count) => encodeTrusted(missedMessage(stream, from, to, count, 'subscriber_behind')),
+        encodeMissed: (m) => encodeTrusted(missedMessage(m.stream, m.fromSeq, m.toSeq, m.count, m.reason)),
         skipped: (count, policy) => this.core.metrics.resultsMissed.inc({ policy }, count),
         disconnected: (reason) => {
           this.core.metrics.connectionsClosed.inc({ endpoint: 'watch', reason });
@@ -146,7 +146,7 @@ export class SubscriberSession extends Connection {
       if (firstHeld > lastSeen + 1) {
         // How many results the span held is unknown (seqs may have had gaps): the span bounds it.
         const to = firstHeld - 1;
-        this.outbox.sendNotice(encodeTrusted(missedMessage(stream, lastSeen + 1, to, to - lastSeen, 'not_retained')));
+        this.outbox.sendMissed({ stream, fromSeq: lastSeen + 1, toSeq: to, count: to - lastSeen, reason: 'not_retained' });
       }
       for (const r of retained) this.core.fanout.deliverTo(this, r);
     }

@@ -34,7 +34,7 @@ function setup(policy: Outbox['policy']) {
   const socket = new FakeSocket();
   const events: string[] = [];
   const outbox = new Outbox(socket, limits, {
-    encodeMissed: (stream, from, to, count) => new TextEncoder().encode(`missed ${stream} ${from}-${to} x${count}`),
+    encodeMissed: (m) => new TextEncoder().encode(`missed ${m.stream} ${m.fromSeq}-${m.toSeq} x${m.count}${m.reason === 'subscriber_behind' ? '' : ` ${m.reason}`}`),
     skipped: (n, p) => events.push(`skipped ${n} ${p}`),
     disconnected: (reason) => events.push(`disconnected ${reason}`),
   });
@@ -90,6 +90,30 @@ describe('Outbox', () => {
     expect(events).toEqual(['disconnected too_many_notices']);
     expect(socket.terminated).toBe(true);
     expect(outbox.sendResult('s', 9, () => bytes(9))).toBe(false);
+  });
+
+  it('merges drops announced upstream while behind into one range per stream and reason, in place, without a limit', () => {
+    const { socket, outbox, events } = setup('drop_with_notice');
+    for (let seq = 0; seq < 3; seq++) outbox.sendResult('s', seq, () => bytes(seq));
+    outbox.sendMissed({ stream: 'a', fromSeq: 4, toSeq: 4, count: 1, reason: 'dropped_by_queue' });
+    outbox.sendNotice(bytes(7, 10));
+    // Far more drops than maxNotices (3): merged, never a reason to disconnect.
+    for (let seq = 5; seq < 50; seq += 2) outbox.sendMissed({ stream: 'a', fromSeq: seq, toSeq: seq, count: 1, reason: 'dropped_by_queue' });
+    outbox.sendMissed({ stream: 'a', fromSeq: 6, toSeq: 6, count: 1, reason: 'solver_failed' });
+    outbox.sendMissed({ stream: 'b', fromSeq: 2, toSeq: 3, count: 2, reason: 'dropped_by_queue' });
+    expect(events).toEqual([]);
+    expect(outbox.stats().heldNotices).toBe(4);
+    socket.drain();
+    // Where the first of each stood, then the alerts and events between them, in order.
+    expect(socket.sent.slice(3).map(text)).toEqual([
+      'missed a 4-49 x24 dropped_by_queue',
+      '\u0007'.repeat(10),
+      'missed a 6-6 x1 solver_failed',
+      'missed b 2-3 x2 dropped_by_queue',
+    ]);
+    // Caught up: the next drop goes out at once.
+    outbox.sendMissed({ stream: 'a', fromSeq: 60, toSeq: 60, count: 1, reason: 'dropped_by_queue' });
+    expect(text(socket.sent.at(-1)!)).toBe('missed a 60-60 x1 dropped_by_queue');
   });
 
   it('disconnect closes with 1013 once behind', () => {
