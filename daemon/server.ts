@@ -28,8 +28,8 @@ export class DaemonServer {
   readonly log: Logger;
   private readonly server: http.Server;
   private readonly wss: WebSocketServer;
-  private readonly liveness = new WeakMap<WebSocket, PeerLiveness>();
-  private readonly endpointOf = new WeakMap<WebSocket, Endpoint>();
+  /** Each connection's endpoint and the heartbeat's judgement of it. */
+  private readonly peers = new WeakMap<WebSocket, { endpoint: Endpoint; liveness: PeerLiveness }>();
 
   private readonly connectionsPerGrant = new Map<string, number>();
   private readonly heartbeat: NodeJS.Timeout;
@@ -143,26 +143,26 @@ export class DaemonServer {
 
   private accept(ws: WebSocket, socket: Duplex, endpoint: Endpoint, principal: Principal): void {
     const id = this.nextConnectionId++;
-    this.endpointOf.set(ws, endpoint);
     this.connectionsPerGrant.set(principal.id, (this.connectionsPerGrant.get(principal.id) ?? 0) + 1);
     ws.on('error', (err) => this.log.debug({ connection: id, err: err.message }, 'connection error'));
+    const session =
+      endpoint === 'produce'
+        ? new ProducerSession(ws, socket, principal, this.core, endpoint, id)
+        : new SubscriberSession(ws, socket, principal, this.core, endpoint, id).init();
     let release: () => void;
-    let session: ProducerSession | SubscriberSession;
-    if (endpoint === 'produce') {
-      const producer = (session = new ProducerSession(ws, socket, principal, this.core, endpoint, id));
-      this.core.producers.add(producer);
+    if (session instanceof ProducerSession) {
+      this.core.producers.add(session);
       if (this.core.ingestIsPaused) ws.pause();
-      release = () => this.core.releaseProducer(producer);
+      release = () => this.core.releaseProducer(session);
     } else {
-      const subscriber = (session = new SubscriberSession(ws, socket, principal, this.core, endpoint, id).init());
-      this.core.fanout.add(subscriber);
+      this.core.fanout.add(session);
       release = () => {
-        this.core.fanout.remove(subscriber);
-        subscriber.dispose();
+        this.core.fanout.remove(session);
+        session.dispose();
       };
     }
     const liveness = new PeerLiveness(() => session.bytesSent);
-    this.liveness.set(ws, liveness);
+    this.peers.set(ws, { endpoint, liveness });
     ws.on('pong', () => liveness.answered());
     ws.on('close', () => {
       release();
@@ -177,18 +177,17 @@ export class DaemonServer {
     for (const ws of this.wss.clients) {
       // A socket we stopped reading (ingest paused) cannot show us its pongs: not its fault.
       if (ws.isPaused) continue;
-      const liveness = this.liveness.get(ws);
-      if (liveness === undefined) continue;
-      switch (liveness.check(now, this.config.heartbeatMs, this.config.limits.minReadBytesPerSecond)) {
+      const peer = this.peers.get(ws);
+      if (peer === undefined) continue;
+      switch (peer.liveness.check(now, this.config.heartbeatMs, this.config.limits.minReadBytesPerSecond)) {
         case 'ping':
           ws.ping();
           break;
         case 'wait':
           break;
         case 'dead': {
-          const endpoint = this.endpointOf.get(ws) ?? 'watch';
-          this.core.metrics.connectionsClosed.inc({ endpoint, reason: 'no_pong' });
-          this.log.info({ endpoint }, 'peer did not answer a ping; terminated');
+          this.core.metrics.connectionsClosed.inc({ endpoint: peer.endpoint, reason: 'no_pong' });
+          this.log.info({ endpoint: peer.endpoint }, 'peer did not answer a ping; terminated');
           ws.terminate();
         }
       }

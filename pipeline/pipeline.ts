@@ -270,7 +270,6 @@ export class Pipeline {
     return [...this.streams.keys()];
   }
 
-  /** Frames waiting in all queues. */
   /** Measurement bytes of the frames waiting in all queues. */
   queuedBytes(): number {
     return this.waitingBytes;

@@ -63,6 +63,12 @@ function pipelineDeclaration(d: StreamDeclaration): PipelineDeclaration {
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
+/** Waits until `at` (a performance.now() time); returns at once if it has passed. */
+async function sleepUntil(at: number): Promise<void> {
+  const wait = at - performance.now();
+  if (wait > 0) await sleep(wait);
+}
+
 /**
  * Bare solve time (ms) of each frame after the warm-up, solved in order with warm starts. With
  * `intervalMs` the solves follow the same open-loop schedule as the run through the daemon (a
@@ -75,8 +81,7 @@ async function bareSolveMs(set: FrameSet, intervalMs?: number): Promise<number[]
   const start = performance.now();
   for (const [t, y] of set.ys.entries()) {
     if (intervalMs !== undefined && t >= WARMUP) {
-      const wait = start + t * intervalMs - performance.now();
-      if (wait > 0) await sleep(wait);
+      await sleepUntil(start + t * intervalMs);
     }
     const started = performance.now();
     solver.solve(y.slice(), set.declaration.noise_sigma, false);
@@ -176,9 +181,7 @@ async function endToEndMs(set: FrameSet, intervalMs: number): Promise<number[]> 
     }
     const start = performance.now();
     for (let t = WARMUP; t < set.ys.length; t++) {
-      const due = start + (t - WARMUP) * intervalMs;
-      const wait = due - performance.now();
-      if (wait > 0) await sleep(wait);
+      await sleepUntil(start + (t - WARMUP) * intervalMs);
       sentAt[t] = performance.now();
       producer.send(frame(name, t, set.ys[t]!));
     }
@@ -229,8 +232,7 @@ async function transportFloorMs(set: FrameSet, intervalMs: number): Promise<numb
   for (let t = 0; t < WARMUP; t++) await roundTrip(t);
   const start = performance.now();
   for (let t = WARMUP; t < set.ys.length; t++) {
-    const wait = start + (t - WARMUP) * intervalMs - performance.now();
-    if (wait > 0) await sleep(wait);
+    await sleepUntil(start + (t - WARMUP) * intervalMs);
     times.push(await roundTrip(t));
   }
   client.close();
